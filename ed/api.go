@@ -1,0 +1,135 @@
+package ed
+
+import "context"
+
+// MuBOverKB is mu_B/k_B in K/T (CODATA 2018): the one constant linking field
+// and energy. A spin with moment g S in a field B has Zeeman energy
+// -MuBOverKB * g * B * S^z kelvin.
+const MuBOverKB = 0.67171381563
+
+// DefaultMaxMemory is the memory a task may use when Limits.MaxMemory is 0.
+const DefaultMaxMemory = 4 << 30
+
+// Limits bound what a task may allocate. Both are checked before anything
+// large is allocated; a task over a limit is refused with a *LimitError.
+type Limits struct {
+	// MaxMemory in bytes; 0 means DefaultMaxMemory.
+	MaxMemory int64
+}
+
+// Progress receives the stage name and the count of finished units of work
+// out of total. It is called from the goroutine that runs the task.
+type Progress func(stage string, done, total int)
+
+// Options are shared by every task. The zero value is ready to use.
+type Options struct {
+	Limits Limits
+	// Progress may be nil.
+	Progress Progress
+	// Workers is the number of goroutines for independent sectors and field
+	// points; 0 means runtime.GOMAXPROCS(0).
+	Workers int
+}
+
+// Sector describes one diagonalized block.
+type Sector struct {
+	Label     string
+	HasSz     bool
+	Sz        float64
+	Dimension int
+}
+
+// Report says what the engine decided: method, route, sectors, memory.
+type Report struct {
+	Method           string
+	Route            string
+	Dimension        int64
+	Sectors          []Sector
+	Complex          bool
+	MemoryBytes      int64
+	Diagonalizations int
+	Solver           string
+	Warnings         []string
+	Seconds          float64
+}
+
+// Level is a group of degenerate eigenstates sharing their good quantum numbers.
+type Level struct {
+	Energy       float64 // K
+	Degeneracy   int
+	HasSz        bool
+	Sz           float64
+	HasTotalSpin bool
+	TotalSpin    float64
+}
+
+// SpectrumRequest asks for the spectrum at one field.
+type SpectrumRequest struct {
+	Field  [3]float64 // B in T
+	Levels int        // lowest K eigenvalues; 0 = all
+}
+
+// SpectrumResult: Energies ascending with multiplicity (K); Levels grouped.
+type SpectrumResult struct {
+	Field       [3]float64
+	Energies    []float64
+	Levels      []Level
+	Truncated   bool
+	TotalStates int64
+	Report      Report
+}
+
+// ThermoRequest asks for thermodynamics at one field on a temperature grid.
+type ThermoRequest struct {
+	Temperatures []float64  // K, each > 0
+	Field        [3]float64 // B in T
+}
+
+// ThermoResult holds parallel arrays, one entry per temperature. Units: K,
+// k_B, k_B, mu_B and mu_B/T per cluster.
+type ThermoResult struct {
+	Field          [3]float64
+	Direction      [3]float64 // unit vector of M and chi (z at zero field)
+	Temperature    []float64
+	Energy         []float64
+	SpecificHeat   []float64
+	Entropy        []float64
+	Magnetization  []float64
+	Susceptibility []float64
+	Report         Report
+}
+
+// MagnetizationRequest asks for M(B) along one direction at several temperatures.
+type MagnetizationRequest struct {
+	Temperatures []float64  // K, each >= 0 (0: ground-state limit)
+	Fields       []float64  // field magnitudes in T along Direction
+	Direction    [3]float64 // any non-zero vector; zero means z
+}
+
+// Curve is M(B) at one temperature: one value per field, mu_B per cluster;
+// Groups maps each site group to its moment along the field.
+type Curve struct {
+	Temperature   float64
+	Magnetization []float64
+	Groups        map[string][]float64
+}
+
+// MagnetizationResult holds one curve per temperature.
+type MagnetizationResult struct {
+	Field      []float64
+	Direction  [3]float64
+	Curves     []Curve
+	Saturation float64 // sum_i |g_i^T n| S_i, mu_B
+	Report     Report
+}
+
+// The three tasks. Each validates its request, plans sectors and memory
+// before allocating, honours ctx cancellation and reports progress.
+//
+//	func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Options) (*SpectrumResult, error)
+//	func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Options) (*ThermoResult, error)
+//	func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options) (*MagnetizationResult, error)
+//
+// Errors: *LimitError when the task needs more memory than Limits allow,
+// *RequestError for a bad request (it names the field), ctx.Err() on cancel.
+var _ = context.Background

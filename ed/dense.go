@@ -1,0 +1,184 @@
+package ed
+
+import (
+	"context"
+	"runtime"
+	"sort"
+	"sync"
+
+	"frustum/ed/eigen"
+)
+
+// sectorSpectrum is the dense diagonalization of one sector: eigenvalues
+// ascending (K) and, when asked for, the eigenvectors as the columns of a
+// row-major dim x dim matrix (real or complex).
+type sectorSpectrum struct {
+	sector *sectorBasis
+	values []float64
+	vecsR  []float64
+	vecsC  []complex128
+}
+
+// denseReal fills the real symmetric matrix of op in the sector (row-major;
+// <y|op|x> at row index(y), column index(x)). op must be real and must not
+// leave the sector.
+func denseReal(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator) []float64 {
+	n := sec.dim()
+	a := make([]float64, n*n)
+	k := make([]int, sys.n)
+	for c, x := range sec.states {
+		sys.digits(x, k)
+		a[c*n+c] += op.diagonal(sys, k)
+		op.apply(sys, x, k, func(y int64, amp complex128) {
+			a[bs.index(y)*n+c] += real(amp)
+		})
+	}
+	return a
+}
+
+// denseComplex fills the complex Hermitian matrix of op in the sector.
+func denseComplex(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator) []complex128 {
+	n := sec.dim()
+	a := make([]complex128, n*n)
+	k := make([]int, sys.n)
+	for c, x := range sec.states {
+		sys.digits(x, k)
+		a[c*n+c] += complex(op.diagonal(sys, k), 0)
+		op.apply(sys, x, k, func(y int64, amp complex128) {
+			a[bs.index(y)*n+c] += amp
+		})
+	}
+	return a
+}
+
+// diagonalize builds op in sec and diagonalizes it densely.
+func diagonalize(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool) (*sectorSpectrum, error) {
+	n := sec.dim()
+	out := &sectorSpectrum{sector: sec}
+	var ok bool
+	if real {
+		out.values, out.vecsR, ok = eigen.Symmetric(denseReal(sys, bs, sec, op), n, vectors)
+	} else {
+		out.values, out.vecsC, ok = eigen.Hermitian(denseComplex(sys, bs, sec, op), n, vectors)
+	}
+	if !ok {
+		return nil, &NumericalError{Sector: sec.label, Detail: "dense eigensolver failed"}
+	}
+	return out, nil
+}
+
+// workerCount returns the number of goroutines for jobs independent units.
+func workerCount(opt Options, jobs int) int {
+	w := opt.Workers
+	if w <= 0 {
+		w = runtime.GOMAXPROCS(0)
+	}
+	if w > jobs {
+		w = jobs
+	}
+	if w < 1 {
+		w = 1
+	}
+	return w
+}
+
+// parallel runs do(i) for i in order (largest first when weights are given)
+// on the workers, stopping at the first error or when ctx is done. progress
+// is called after each finished unit.
+func parallel(ctx context.Context, jobs int, weight func(int) int, opt Options, stage string, do func(i int) error) error {
+	order := make([]int, jobs)
+	for i := range order {
+		order[i] = i
+	}
+	if weight != nil {
+		sort.SliceStable(order, func(a, b int) bool { return weight(order[a]) > weight(order[b]) })
+	}
+	w := workerCount(opt, jobs)
+	next := make(chan int)
+	var mu sync.Mutex
+	var firstErr error
+	done := 0
+	var wg sync.WaitGroup
+	for g := 0; g < w; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				err := do(i)
+				mu.Lock()
+				if err != nil && firstErr == nil {
+					firstErr = err
+				}
+				done++
+				d := done
+				mu.Unlock()
+				if opt.Progress != nil && err == nil {
+					opt.Progress(stage, d, jobs)
+				}
+			}
+		}()
+	}
+feed:
+	for _, i := range order {
+		mu.Lock()
+		failed := firstErr != nil
+		mu.Unlock()
+		if failed {
+			break
+		}
+		select {
+		case <-ctx.Done():
+			break feed
+		case next <- i:
+		}
+	}
+	close(next)
+	wg.Wait()
+	if firstErr != nil {
+		return firstErr
+	}
+	return ctx.Err()
+}
+
+// expectations returns <v_k|op|v_k> for every eigenvector k of the sector.
+// op must keep the sector (it conserves S^z when the sector has an Sz).
+func expectations(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) []float64 {
+	sec := sp.sector
+	n := sec.dim()
+	out := make([]float64, n)
+	k := make([]int, sys.n)
+	for c, x := range sec.states {
+		sys.digits(x, k)
+		d := op.diagonal(sys, k)
+		if sp.vecsR != nil {
+			row := sp.vecsR[c*n : (c+1)*n]
+			if d != 0 {
+				for j, u := range row {
+					out[j] += d * u * u
+				}
+			}
+			op.apply(sys, x, k, func(y int64, amp complex128) {
+				ry := sp.vecsR[bs.index(y)*n : (bs.index(y)+1)*n]
+				a := real(amp)
+				for j, u := range row {
+					out[j] += a * ry[j] * u
+				}
+			})
+			continue
+		}
+		row := sp.vecsC[c*n : (c+1)*n]
+		if d != 0 {
+			for j, u := range row {
+				out[j] += d * (real(u)*real(u) + imag(u)*imag(u))
+			}
+		}
+		op.apply(sys, x, k, func(y int64, amp complex128) {
+			ry := sp.vecsC[bs.index(y)*n : (bs.index(y)+1)*n]
+			for j, u := range row {
+				v := amp * u
+				out[j] += real(ry[j])*real(v) + imag(ry[j])*imag(v)
+			}
+		})
+	}
+	return out
+}

@@ -1,0 +1,287 @@
+package ed
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"time"
+
+	"frustum/cluster"
+)
+
+// Magnetization returns M(B) along the unit direction n at every temperature:
+// M = <M_n> with M_n = sum_i n . (g_i S_i) in mu_B per cluster, and the same
+// for the sites of each group. T = 0 gives the ground-state limit (the
+// average over the degenerate ground states).
+//
+// Where H(B) = H0 - (mu_B/k_B) B m S^z_total with [H0, S^z] = 0 (an SU(2)
+// cluster with one g, or S^z-conserving exchange with one g_zz and the field
+// along z), H0 is diagonalized once and every field follows from the sector
+// partition functions:
+//
+//	Z(B, T) = sum_s exp(-(e0_s - h M_s)/T) Z_s(T),  h = (mu_B/k_B) m B,
+//
+// with Z_s(T) the partition function of sector s about its lowest energy e0_s.
+// Otherwise each field is diagonalized (in S^z sectors where they survive).
+func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options) (*MagnetizationResult, error) {
+	start := time.Now()
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("direction", req.Direction); err != nil {
+		return nil, err
+	}
+	if err := checkTemperatures(req.Temperatures, true); err != nil {
+		return nil, err
+	}
+	if len(req.Fields) == 0 {
+		return nil, &RequestError{Field: "fields", Reason: "no fields given"}
+	}
+	for i, b := range req.Fields {
+		if math.IsNaN(b) || math.IsInf(b, 0) {
+			return nil, &RequestError{Field: fmt.Sprintf("fields[%d]", i), Reason: fmt.Sprintf("%v is not a finite number", b)}
+		}
+	}
+	n, _ := unit(req.Direction)
+	st := newSetup(m, n, true)
+	nb, ng := len(req.Fields), len(st.groups)
+	res := &MagnetizationResult{Field: append([]float64(nil), req.Fields...), Direction: n, Saturation: st.saturation}
+	for _, T := range req.Temperatures {
+		c := Curve{Temperature: T, Magnetization: make([]float64, nb)}
+		if ng > 0 {
+			c.Groups = map[string][]float64{}
+			for _, g := range st.groups {
+				c.Groups[g] = make([]float64, nb)
+			}
+		}
+		res.Curves = append(res.Curves, c)
+	}
+	var rep Report
+	var err error
+	if st.uniform {
+		rep, err = magnetizationShortcut(ctx, st, req, opt, res)
+	} else {
+		rep, err = magnetizationPerField(ctx, st, req, opt, res)
+	}
+	if err != nil {
+		return nil, err
+	}
+	// Time reversal: no moment without a field (exactly, not to rounding).
+	for bi, B := range req.Fields {
+		if B != 0 {
+			continue
+		}
+		for _, c := range res.Curves {
+			c.Magnetization[bi] = 0
+			for _, g := range c.Groups {
+				g[bi] = 0
+			}
+		}
+	}
+	rep.Seconds = time.Since(start).Seconds()
+	res.Report = rep
+	return res, nil
+}
+
+// sectorStates holds one sector's eigenvalues and the expectation values of
+// the moment and of each group's moment in its eigenstates.
+type sectorStates struct {
+	twoSz  int
+	e      []float64
+	moment []float64   // nil in the shortcut (it is mz * Sz)
+	groups [][]float64 // per group, per eigenstate
+}
+
+func magnetizationShortcut(ctx context.Context, st *setup, req MagnetizationRequest, opt Options, res *MagnetizationResult) (Report, error) {
+	ng := len(st.groups)
+	w := newWorkload(st, opt, ng > 0, false, false, 1)
+	w.complex = !st.h0.isReal()
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return Report{}, err
+	}
+	rep := w.report(st, mem)
+	bs := newBasisSet(st.sys, true)
+	secs := make([]sectorStates, len(bs.sectors))
+	src := bs.mirrorSources(st.flipSymmetric)
+	solve := solvedSectors(src)
+	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
+		i := solve[si]
+		sp, err := diagonalize(st.sys, bs, bs.sectors[i], st.h0, !w.complex, ng > 0)
+		if err != nil {
+			return err
+		}
+		s := sectorStates{twoSz: bs.sectors[i].twoSz, e: sp.values}
+		for _, op := range st.groupMoment {
+			s.groups = append(s.groups, expectations(st.sys, bs, sp, op))
+		}
+		secs[i] = s
+		return nil
+	})
+	if err != nil {
+		return Report{}, err
+	}
+	for i, j := range src {
+		if j < 0 {
+			continue
+		}
+		// The flip maps sector -Sz onto Sz with the same energies and
+		// opposite group moments.
+		s := sectorStates{twoSz: bs.sectors[i].twoSz, e: secs[j].e}
+		for _, g := range secs[j].groups {
+			neg := make([]float64, len(g))
+			for v, x := range g {
+				neg[v] = -x
+			}
+			s.groups = append(s.groups, neg)
+		}
+		secs[i] = s
+	}
+	rep.Diagonalizations = len(solve)
+	var all []float64
+	for _, s := range secs {
+		all = append(all, s.e...)
+	}
+	tol := levelTolerance(all)
+
+	// Per temperature and sector: ln Z_s(T) about e0_s and the sector's mean
+	// group moments.
+	for ti, T := range req.Temperatures {
+		logZ := make([]float64, len(secs))
+		gavg := make([][]float64, len(secs))
+		for si, s := range secs {
+			wts := weights(s.e, s.e[0], T, tol)
+			z := 0.0
+			for _, p := range wts {
+				z += p
+			}
+			logZ[si] = math.Log(z)
+			gavg[si] = make([]float64, ng)
+			for g := 0; g < ng; g++ {
+				a := 0.0
+				for v, p := range wts {
+					a += p * s.groups[g][v]
+				}
+				gavg[si][g] = a / z
+			}
+		}
+		curve := &res.Curves[ti]
+		a := make([]float64, len(secs))
+		for bi, B := range req.Fields {
+			h := MuBOverKB * B * st.mz
+			lo := math.Inf(1)
+			for si, s := range secs {
+				a[si] = s.e[0] - h*float64(s.twoSz)/2
+				lo = math.Min(lo, a[si])
+			}
+			var z, sz float64
+			gm := make([]float64, ng)
+			for si, s := range secs {
+				var p float64
+				if T == 0 {
+					if a[si]-lo > tol {
+						continue
+					}
+					p = math.Exp(logZ[si])
+				} else {
+					p = math.Exp(-(a[si]-lo)/T + logZ[si])
+				}
+				z += p
+				sz += p * float64(s.twoSz) / 2
+				for g := range gm {
+					gm[g] += p * gavg[si][g]
+				}
+			}
+			curve.Magnetization[bi] = st.mz * sz / z
+			for g, name := range st.groups {
+				curve.Groups[name][bi] = gm[g] / z
+			}
+		}
+	}
+	rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
+	return rep, nil
+}
+
+func magnetizationPerField(ctx context.Context, st *setup, req MagnetizationRequest, opt Options, res *MagnetizationResult) (Report, error) {
+	ng := len(st.groups)
+	nb := len(req.Fields)
+	w := newWorkload(st, opt, true, false, true, nb)
+	isReal := st.real
+	w.complex = !isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return Report{}, err
+	}
+	rep := w.report(st, mem)
+	bs := newBasisSet(st.sys, st.conserveSz)
+	err = parallel(ctx, nb, nil, opt, "diagonalize fields", func(bi int) error {
+		B := req.Fields[bi]
+		op := st.hamiltonian(B)
+		secs := make([]sectorStates, len(bs.sectors))
+		var all []float64
+		for si, sec := range bs.sectors {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			sp, err := diagonalize(st.sys, bs, sec, op, isReal, true)
+			if err != nil {
+				return err
+			}
+			s := sectorStates{twoSz: sec.twoSz, e: sp.values, moment: expectations(st.sys, bs, sp, st.moment)}
+			for _, g := range st.groupMoment {
+				s.groups = append(s.groups, expectations(st.sys, bs, sp, g))
+			}
+			secs[si] = s
+			all = append(all, sp.values...)
+		}
+		tol := levelTolerance(all)
+		emin := math.Inf(1)
+		for _, e := range all {
+			emin = math.Min(emin, e)
+		}
+		for ti, T := range req.Temperatures {
+			var z, mm float64
+			gm := make([]float64, ng)
+			for _, s := range secs {
+				for v, p := range weights(s.e, emin, T, tol) {
+					if p == 0 {
+						continue
+					}
+					z += p
+					mm += p * s.moment[v]
+					for g := range gm {
+						gm[g] += p * s.groups[g][v]
+					}
+				}
+			}
+			// Distinct fields write distinct entries: no lock needed.
+			res.Curves[ti].Magnetization[bi] = mm / z
+			for g, name := range st.groups {
+				res.Curves[ti].Groups[name][bi] = gm[g] / z
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return Report{}, err
+	}
+	rep.Diagonalizations = nb * len(bs.sectors)
+	rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (no single effective g along the field), moments from eigenvectors"
+	return rep, nil
+}
+
+// weights returns the Boltzmann factors exp(-(e_v - emin)/T), or at T = 0 the
+// indicator of the states within tol of emin.
+func weights(e []float64, emin, T, tol float64) []float64 {
+	w := make([]float64, len(e))
+	for v, x := range e {
+		if T == 0 {
+			if x-emin <= tol {
+				w[v] = 1
+			}
+			continue
+		}
+		w[v] = math.Exp(-(x - emin) / T)
+	}
+	return w
+}

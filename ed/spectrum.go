@@ -1,0 +1,147 @@
+package ed
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+	"time"
+
+	"frustum/cluster"
+)
+
+// Spectrum diagonalizes the cluster at one field and returns every eigenvalue
+// (or the lowest req.Levels) with the levels grouped by degeneracy, labelled
+// with S^z and total S where those are good quantum numbers.
+//
+// Where the field-free Hamiltonian conserves S^z and the Zeeman term is
+// -(mu_B/k_B) B m S^z_total (one g value, or an SU(2)-invariant H0 with the
+// quantization axis turned onto the field), the zero-field sectors are
+// diagonalized and shifted by -(mu_B/k_B) B m S^z; otherwise H(B) is
+// diagonalized in S^z sectors when it conserves S^z, and whole otherwise.
+func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Options) (*SpectrumResult, error) {
+	start := time.Now()
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("field", req.Field); err != nil {
+		return nil, err
+	}
+	if req.Levels < 0 {
+		return nil, &RequestError{Field: "levels", Reason: fmt.Sprintf("%d is negative", req.Levels)}
+	}
+	n, B := unit(req.Field)
+	st := newSetup(m, n, B != 0)
+	// Diagonalize H0 when the field only shifts its sectors.
+	applyAnalytically := B == 0 || st.uniform
+	op := st.h0
+	if !applyAnalytically {
+		op = st.hamiltonian(B)
+	}
+	isReal := op.isReal()
+	w := newWorkload(st, opt, false, false, false, 1)
+	w.complex = !isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	rep := w.report(st, mem)
+	bs := newBasisSet(st.sys, st.conserveSz)
+	spectra := make([]*sectorSpectrum, len(bs.sectors))
+	src := bs.mirrorSources(st.flipSymmetric && op == st.h0)
+	solve := solvedSectors(src)
+	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(i int) error {
+		sp, err := diagonalize(st.sys, bs, bs.sectors[solve[i]], op, isReal, false)
+		spectra[solve[i]] = sp
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	for i, j := range src {
+		if j >= 0 {
+			spectra[i] = &sectorSpectrum{sector: bs.sectors[i], values: spectra[j].values}
+		}
+	}
+	rep.Diagonalizations = len(solve)
+
+	h := 0.0
+	if B != 0 && applyAnalytically {
+		h = MuBOverKB * B * st.mz
+	}
+	var xs, zeroField []labelledEnergy
+	for _, sp := range spectra {
+		for _, e := range sp.values {
+			x := labelledEnergy{e: e, twoSz: sp.sector.twoSz}
+			zeroField = append(zeroField, x)
+			x.e -= h * sp.sector.sz()
+			xs = append(xs, x)
+		}
+	}
+	res := &SpectrumResult{Field: req.Field, TotalStates: st.sys.total}
+	res.Energies = make([]float64, len(xs))
+	for i, x := range xs {
+		res.Energies[i] = x.e
+	}
+	sort.Float64s(res.Energies)
+	tol := levelTolerance(res.Energies)
+
+	switch {
+	case st.su2 && applyAnalytically:
+		ms, ok := su2Multiplets(zeroField, tol)
+		if ok {
+			res.Levels = su2Levels(ms, h, tol)
+			break
+		}
+		rep.Warnings = append(rep.Warnings, "total-spin labels dropped: near-degenerate levels closer than the grouping tolerance could not be assigned to multiplets")
+		res.Levels = groupLevels(xs, tol, st.conserveSz && B != 0)
+	case st.conserveSz:
+		res.Levels = groupLevels(xs, tol, true)
+	default:
+		res.Levels = groupLevels(xs, tol, false)
+	}
+	rep.Route = spectrumRoute(st, B, applyAnalytically)
+	if req.Levels > 0 && req.Levels < len(res.Energies) {
+		res.Truncated = true
+		res.Energies = res.Energies[:req.Levels]
+		top := res.Energies[req.Levels-1] + tol
+		k := 0
+		for k < len(res.Levels) && res.Levels[k].Energy <= top {
+			k++
+		}
+		res.Levels = res.Levels[:k]
+		rep.Warnings = append(rep.Warnings, fmt.Sprintf("spectrum truncated to the lowest %d of %d eigenvalues (levels keep their whole degeneracy)", req.Levels, st.sys.total))
+	}
+	rep.Seconds = time.Since(start).Seconds()
+	res.Report = rep
+	return res, nil
+}
+
+func spectrumRoute(st *setup, B float64, analytic bool) string {
+	sym := "no conserved S^z"
+	if st.conserveSz {
+		sym = "total S^z conserved"
+		if st.su2 {
+			sym = "SU(2)-invariant exchange, total S^z conserved"
+		}
+		if st.rotated && B != 0 {
+			sym += " (quantization axis along the field)"
+		}
+	}
+	switch {
+	case B == 0:
+		return "zero field: " + sym
+	case analytic:
+		return sym + "; one effective g along the field: zero-field sectors diagonalized, Zeeman shift -(mu_B/k_B) B g_eff S^z applied exactly"
+	}
+	return sym + "; Hamiltonian diagonalized at this field"
+}
+
+func checkVector(name string, v [3]float64) error {
+	for i, x := range v {
+		if math.IsNaN(x) || math.IsInf(x, 0) {
+			return &RequestError{Field: fmt.Sprintf("%s[%d]", name, i), Reason: fmt.Sprintf("%v is not a finite number", x)}
+		}
+	}
+	return nil
+}

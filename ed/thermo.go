@@ -1,0 +1,308 @@
+package ed
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"time"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/gonum"
+
+	"frustum/cluster"
+)
+
+// Thermo returns the thermodynamics of the cluster at one field from its full
+// spectrum, per cluster, at every temperature T (K):
+//
+//	E = <H>                          (K)
+//	C = (<H^2> - <H>^2) / T^2         (k_B)
+//	S = ln Z + (E - E_min)/T + ... = ln Z' + (E - E_min)/T, Z' = sum exp(-(E_v - E_min)/T)   (k_B)
+//	M = <M_n>                        (mu_B, along the field; 0 at zero field)
+//	chi = dM/dB at fixed direction   (mu_B/T)
+//
+// Boltzmann weights are shifted by the ground energy, so nothing overflows;
+// variances are summed about the mean (two passes), so C stays exact at high
+// T and vanishes cleanly at low T. The susceptibility is the isothermal
+// derivative including the Van Vleck part: with p_v the Boltzmann
+// probabilities and M_vw the moment's matrix elements between eigenstates,
+//
+//	chi = (mu_B/k_B) [ sum_{v,w} |M_vw|^2 (p_v - p_w)/(E_w - E_v) - <M>^2/T ],
+//
+// the degenerate terms taken as their limit p_v/T. When M_n is proportional
+// to the conserved total S^z this reduces to (mu_B/k_B) m^2 Var(S^z)/T, which
+// is used without eigenvectors.
+func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Options) (*ThermoResult, error) {
+	start := time.Now()
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("field", req.Field); err != nil {
+		return nil, err
+	}
+	if err := checkTemperatures(req.Temperatures, false); err != nil {
+		return nil, err
+	}
+	n, B := unit(req.Field)
+	st := newSetup(m, n, true)
+	nt := len(req.Temperatures)
+	res := &ThermoResult{Field: req.Field, Direction: n, Temperature: append([]float64(nil), req.Temperatures...),
+		Energy: make([]float64, nt), SpecificHeat: make([]float64, nt), Entropy: make([]float64, nt),
+		Magnetization: make([]float64, nt), Susceptibility: make([]float64, nt)}
+
+	kubo := !st.uniform
+	op := st.h0
+	if kubo {
+		op = st.hamiltonian(B)
+	}
+	isReal := op.isReal() && st.moment.isReal()
+	w := newWorkload(st, opt, kubo, kubo, false, 1)
+	w.complex = !isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	rep := w.report(st, mem)
+	bs := newBasisSet(st.sys, st.conserveSz)
+	h := MuBOverKB * B * st.mz
+
+	// Per sector: eigenvalues (with the analytic Zeeman shift when uniform)
+	// and, for the Kubo route, per-temperature sums about the sector's
+	// lowest energy e0: Z_s, sum p M_vv, and the Kubo double sum.
+	type sectorSums struct {
+		e0         float64
+		z, mom, kb []float64
+	}
+	energies := make([][]float64, len(bs.sectors))
+	sums := make([]sectorSums, len(bs.sectors))
+	src := bs.mirrorSources(st.flipSymmetric && !kubo)
+	solve := solvedSectors(src)
+	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
+		i := solve[si]
+		sec := bs.sectors[i]
+		sp, err := diagonalize(st.sys, bs, sec, op, isReal, kubo)
+		if err != nil {
+			return err
+		}
+		e := sp.values
+		energies[i] = e
+		if !kubo {
+			return nil
+		}
+		m2 := momentMatrix(st.sys, bs, sp, st.moment)
+		s := sectorSums{e0: e[0], z: make([]float64, nt), mom: make([]float64, nt), kb: make([]float64, nt)}
+		dim := len(e)
+		p := make([]float64, dim)
+		for ti, T := range req.Temperatures {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			for v := range e {
+				p[v] = math.Exp(-(e[v] - s.e0) / T)
+				s.z[ti] += p[v]
+				s.mom[ti] += p[v] * m2.diag[v]
+			}
+			k := 0.0
+			for v := 0; v < dim; v++ {
+				if p[v] == 0 {
+					continue
+				}
+				row := m2.abs2[v*dim : (v+1)*dim]
+				k += p[v] * row[v] / T
+				pair := 0.0
+				for u := v + 1; u < dim; u++ {
+					if row[u] == 0 {
+						continue
+					}
+					d := e[u] - e[v]
+					if d <= 0 {
+						pair += row[u] / T
+					} else {
+						pair += row[u] * (-math.Expm1(-d / T)) / d
+					}
+				}
+				k += 2 * p[v] * pair
+			}
+			s.kb[ti] = k
+		}
+		sums[i] = s
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	rep.Diagonalizations = len(solve)
+	if !kubo {
+		// Zeeman shift -h S^z of each sector; mirrored sectors copy their source.
+		raw := append([][]float64(nil), energies...)
+		for i, sec := range bs.sectors {
+			from := raw[i]
+			if src[i] >= 0 {
+				from = raw[src[i]]
+			}
+			e := make([]float64, len(from))
+			for j, x := range from {
+				e[j] = x - h*sec.sz()
+			}
+			energies[i] = e
+		}
+	}
+
+	emin := math.Inf(1)
+	for _, e := range energies {
+		for _, x := range e {
+			emin = math.Min(emin, x)
+		}
+	}
+	for ti, T := range req.Temperatures {
+		var z, e1 float64
+		var szSum float64
+		for i, e := range energies {
+			sz := bs.sectors[i].sz()
+			for _, x := range e {
+				p := math.Exp(-(x - emin) / T)
+				z += p
+				e1 += p * (x - emin)
+				szSum += p * sz
+			}
+		}
+		mean := e1 / z
+		var v2, szVar float64
+		szMean := szSum / z
+		for i, e := range energies {
+			sz := bs.sectors[i].sz()
+			for _, x := range e {
+				p := math.Exp(-(x - emin) / T)
+				d := x - emin - mean
+				v2 += p * d * d
+				szVar += p * (sz - szMean) * (sz - szMean)
+			}
+		}
+		res.Energy[ti] = emin + mean
+		res.SpecificHeat[ti] = v2 / z / (T * T)
+		res.Entropy[ti] = math.Log(z) + mean/T
+		if !kubo {
+			res.Magnetization[ti] = st.mz * szMean
+			res.Susceptibility[ti] = MuBOverKB * st.mz * st.mz * (szVar / z) / T
+		} else {
+			var zz, mom, kb float64
+			for _, s := range sums {
+				f := math.Exp(-(s.e0 - emin) / T)
+				zz += f * s.z[ti]
+				mom += f * s.mom[ti]
+				kb += f * s.kb[ti]
+			}
+			mm := mom / zz
+			res.Magnetization[ti] = mm
+			res.Susceptibility[ti] = MuBOverKB * (kb/zz - mm*mm/T)
+		}
+		if B == 0 {
+			// Time reversal: no moment without a field.
+			res.Magnetization[ti] = 0
+		}
+	}
+	rep.Route = thermoRoute(st, B)
+	rep.Seconds = time.Since(start).Seconds()
+	res.Report = rep
+	return res, nil
+}
+
+func thermoRoute(st *setup, B float64) string {
+	if st.uniform {
+		return spectrumRoute(st, B, true) + "; M and chi from the S^z fluctuations (M_n = g_eff S^z commutes with H)"
+	}
+	return spectrumRoute(st, B, false) + "; M and chi from eigenvectors, chi with its Van Vleck part"
+}
+
+// momentElements holds an operator's matrix elements between the eigenstates
+// of one sector: the diagonal <v|O|v> and |<v|O|w>|^2 (row-major dim x dim).
+type momentElements struct {
+	diag, abs2 []float64
+}
+
+// momentMatrix computes O_vw = U^dagger (O U) for the sector's eigenvectors U;
+// O must keep the sector.
+func momentMatrix(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) momentElements {
+	sec := sp.sector
+	n := sec.dim()
+	k := make([]int, sys.n)
+	out := momentElements{diag: make([]float64, n), abs2: make([]float64, n*n)}
+	impl := gonum.Implementation{}
+	if sp.vecsR != nil {
+		u := sp.vecsR
+		x := make([]float64, n*n)
+		for c, s := range sec.states {
+			sys.digits(s, k)
+			if d := op.diagonal(sys, k); d != 0 {
+				row, dst := u[c*n:(c+1)*n], x[c*n:(c+1)*n]
+				for j := range row {
+					dst[j] += d * row[j]
+				}
+			}
+			op.apply(sys, s, k, func(y int64, amp complex128) {
+				r := bs.index(y)
+				a := real(amp)
+				row, dst := u[c*n:(c+1)*n], x[r*n:(r+1)*n]
+				for j := range row {
+					dst[j] += a * row[j]
+				}
+			})
+		}
+		p := make([]float64, n*n)
+		impl.Dgemm(blas.Trans, blas.NoTrans, n, n, n, 1, u, n, x, n, 0, p, n)
+		for i := range p {
+			out.abs2[i] = p[i] * p[i]
+		}
+		for v := 0; v < n; v++ {
+			out.diag[v] = p[v*n+v]
+		}
+		return out
+	}
+	u := sp.vecsC
+	x := make([]complex128, n*n)
+	for c, s := range sec.states {
+		sys.digits(s, k)
+		if d := op.diagonal(sys, k); d != 0 {
+			row, dst := u[c*n:(c+1)*n], x[c*n:(c+1)*n]
+			for j := range row {
+				dst[j] += complex(d, 0) * row[j]
+			}
+		}
+		op.apply(sys, s, k, func(y int64, amp complex128) {
+			r := bs.index(y)
+			row, dst := u[c*n:(c+1)*n], x[r*n:(r+1)*n]
+			for j := range row {
+				dst[j] += amp * row[j]
+			}
+		})
+	}
+	p := make([]complex128, n*n)
+	impl.Zgemm(blas.ConjTrans, blas.NoTrans, n, n, n, 1, u, n, x, n, 0, p, n)
+	for i, v := range p {
+		out.abs2[i] = real(v)*real(v) + imag(v)*imag(v)
+	}
+	for v := 0; v < n; v++ {
+		out.diag[v] = real(p[v*n+v])
+	}
+	return out
+}
+
+// checkTemperatures refuses an empty list, non-finite values and T < 0 (or
+// T = 0 unless allowZero).
+func checkTemperatures(ts []float64, allowZero bool) error {
+	if len(ts) == 0 {
+		return &RequestError{Field: "temperatures", Reason: "no temperatures given"}
+	}
+	for i, T := range ts {
+		f := fmt.Sprintf("temperatures[%d]", i)
+		switch {
+		case math.IsNaN(T) || math.IsInf(T, 0):
+			return &RequestError{Field: f, Reason: fmt.Sprintf("%v is not a finite number", T)}
+		case T < 0:
+			return &RequestError{Field: f, Reason: fmt.Sprintf("%g K is negative", T)}
+		case T == 0 && !allowZero:
+			return &RequestError{Field: f, Reason: "0 K: thermodynamics needs T > 0 K (the ground state is in the spectrum)"}
+		}
+	}
+	return nil
+}
