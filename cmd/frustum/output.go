@@ -1,0 +1,323 @@
+package main
+
+import (
+	"encoding/csv"
+	"fmt"
+	"io"
+	"maps"
+	"math"
+	"os"
+	"slices"
+	"strconv"
+	"strings"
+	"sync"
+	"time"
+	"unicode/utf8"
+
+	"frustum/ed"
+	frustumv1 "frustum/proto/frustum/v1"
+)
+
+// table is a text table whose columns are right-aligned under their headers.
+type table struct {
+	header []string
+	rows   [][]string
+}
+
+func (t *table) add(cells ...string) { t.rows = append(t.rows, cells) }
+
+func (t *table) write(w io.Writer) error {
+	width := make([]int, len(t.header))
+	for i, h := range t.header {
+		width[i] = utf8.RuneCountInString(h)
+	}
+	for _, r := range t.rows {
+		for i, c := range r {
+			width[i] = max(width[i], utf8.RuneCountInString(c))
+		}
+	}
+	var b strings.Builder
+	line := func(cells []string) {
+		b.WriteString(" ")
+		for i, c := range cells {
+			b.WriteString("  ")
+			b.WriteString(strings.Repeat(" ", width[i]-utf8.RuneCountInString(c)))
+			b.WriteString(c)
+		}
+		b.WriteString("\n")
+	}
+	line(t.header)
+	for _, r := range t.rows {
+		line(r)
+	}
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+// fixed prints v with d decimals, without a minus sign on zero.
+func fixed(v float64, d int) string {
+	s := strconv.FormatFloat(v, 'f', d, 64)
+	if strings.Trim(s, "-0.") == "" {
+		s = strings.TrimPrefix(s, "-")
+	}
+	return s
+}
+
+// sig prints v with n significant digits.
+func sig(v float64, n int) string {
+	if v == 0 {
+		return "0"
+	}
+	return strconv.FormatFloat(v, 'g', n, 64)
+}
+
+// num prints v in full precision for CSV.
+func num(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+// half prints a quantum number that is a multiple of 1/2: 0, 1, -1/2, 3/2.
+func half(v float64) string {
+	twice := math.Round(2 * v)
+	if math.Abs(2*v-twice) > 1e-6 {
+		return sig(v, 6)
+	}
+	if int64(twice)%2 == 0 {
+		return strconv.FormatInt(int64(twice)/2, 10)
+	}
+	return strconv.FormatInt(int64(twice), 10) + "/2"
+}
+
+func vector(v []float64) string {
+	parts := make([]string, len(v))
+	for i, x := range v {
+		parts[i] = sig(x, 6)
+	}
+	return "(" + strings.Join(parts, ", ") + ")"
+}
+
+// spectrumTable prints the levels and the engine report.
+func spectrumTable(w io.Writer, r *frustumv1.SpectrumResult) error {
+	what := fmt.Sprintf("all %d states", r.GetTotalStates())
+	if r.GetTruncated() {
+		what = fmt.Sprintf("lowest %d of %d states", len(r.GetEnergies()), r.GetTotalStates())
+	}
+	fmt.Fprintf(w, "Spectrum of %q at B = %s T: %s in %d levels\n\n", r.GetClusterName(), vector(r.GetField()), what, len(r.GetLevels()))
+	t := &table{header: []string{"level", "E (K)", "E - E0 (K)", "degeneracy", "Sz", "S"}}
+	e0 := 0.0
+	if len(r.GetLevels()) > 0 {
+		e0 = r.GetLevels()[0].GetEnergy()
+	}
+	for i, l := range r.GetLevels() {
+		sz, s := "-", "-"
+		if l.Sz != nil {
+			sz = half(l.GetSz())
+		}
+		if l.TotalSpin != nil {
+			s = half(l.GetTotalSpin())
+		}
+		t.add(strconv.Itoa(i+1), fixed(l.GetEnergy(), 4), fixed(l.GetEnergy()-e0, 4), strconv.Itoa(int(l.GetDegeneracy())), sz, s)
+	}
+	if err := t.write(w); err != nil {
+		return err
+	}
+	fmt.Fprintln(w, `  Sz and S are shown where they are good quantum numbers ("-" where not).`)
+	return report(w, r.GetEngine())
+}
+
+func spectrumCSV(w io.Writer, r *frustumv1.SpectrumResult) error {
+	cw := csv.NewWriter(w)
+	cw.Write([]string{"level", "E (K)", "E - E0 (K)", "degeneracy", "Sz", "S"})
+	e0 := 0.0
+	if len(r.GetLevels()) > 0 {
+		e0 = r.GetLevels()[0].GetEnergy()
+	}
+	for i, l := range r.GetLevels() {
+		sz, s := "", ""
+		if l.Sz != nil {
+			sz = num(l.GetSz())
+		}
+		if l.TotalSpin != nil {
+			s = num(l.GetTotalSpin())
+		}
+		cw.Write([]string{strconv.Itoa(i + 1), num(l.GetEnergy()), num(l.GetEnergy() - e0), strconv.Itoa(int(l.GetDegeneracy())), sz, s})
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+var thermoHeader = []string{"T (K)", "E (K)", "C (k_B)", "S (k_B)", "M (mu_B)", "chi (mu_B/T)"}
+
+func thermoTable(w io.Writer, r *frustumv1.ThermoResult) error {
+	fmt.Fprintf(w, "Thermodynamics of %q per cluster at B = %s T; M and chi along %s\n\n",
+		r.GetClusterName(), vector(r.GetField()), vector(r.GetSusceptibilityDirection()))
+	t := &table{header: thermoHeader}
+	for i, T := range r.GetTemperature() {
+		t.add(sig(T, 6), fixed(at(r.GetEnergy(), i), 4), fixed(at(r.GetSpecificHeat(), i), 5),
+			fixed(at(r.GetEntropy(), i), 5), fixed(at(r.GetMagnetization(), i), 5), sig(at(r.GetSusceptibility(), i), 6))
+	}
+	if err := t.write(w); err != nil {
+		return err
+	}
+	return report(w, r.GetEngine())
+}
+
+func thermoCSV(w io.Writer, r *frustumv1.ThermoResult) error {
+	cw := csv.NewWriter(w)
+	cw.Write(thermoHeader)
+	for i, T := range r.GetTemperature() {
+		cw.Write([]string{num(T), num(at(r.GetEnergy(), i)), num(at(r.GetSpecificHeat(), i)), num(at(r.GetEntropy(), i)),
+			num(at(r.GetMagnetization(), i)), num(at(r.GetSusceptibility(), i))})
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// at returns v[i], or NaN when v is too short.
+func at(v []float64, i int) float64 {
+	if i < len(v) {
+		return v[i]
+	}
+	return math.NaN()
+}
+
+// groupNames returns the sorted group names of a curve.
+func groupNames(c *frustumv1.MagnetizationCurve) []string {
+	return slices.Sorted(maps.Keys(c.GetGroups()))
+}
+
+func magnetizationTable(w io.Writer, r *frustumv1.MagnetizationResult) error {
+	fmt.Fprintf(w, "Magnetization of %q per cluster, field along %s; saturation %s mu_B\n",
+		r.GetClusterName(), vector(r.GetDirection()), fixed(r.GetSaturation(), 4))
+	for _, c := range r.GetCurves() {
+		fmt.Fprintf(w, "\nT = %s K\n", sig(c.GetTemperature(), 6))
+		header := []string{"B (T)", "M (mu_B)", "M/M_sat"}
+		groups := groupNames(c)
+		for _, g := range groups {
+			header = append(header, "M["+g+"] (mu_B)")
+		}
+		t := &table{header: header}
+		for i, B := range r.GetField() {
+			m := at(c.GetMagnetization(), i)
+			ratio := math.NaN()
+			if r.GetSaturation() > 0 {
+				ratio = m / r.GetSaturation()
+			}
+			row := []string{sig(B, 6), fixed(m, 5), fixed(ratio, 4)}
+			for _, g := range groups {
+				row = append(row, fixed(at(c.GetGroups()[g].GetValues(), i), 5))
+			}
+			t.add(row...)
+		}
+		if err := t.write(w); err != nil {
+			return err
+		}
+	}
+	return report(w, r.GetEngine())
+}
+
+// magnetizationCSV writes one row per field and, for each temperature, a
+// column of M and one per group.
+func magnetizationCSV(w io.Writer, r *frustumv1.MagnetizationResult) error {
+	cw := csv.NewWriter(w)
+	header := []string{"B (T)"}
+	for _, c := range r.GetCurves() {
+		T := sig(c.GetTemperature(), 6)
+		header = append(header, fmt.Sprintf("M (mu_B) at T=%s K", T))
+		for _, g := range groupNames(c) {
+			header = append(header, fmt.Sprintf("M[%s] (mu_B) at T=%s K", g, T))
+		}
+	}
+	cw.Write(header)
+	for i, B := range r.GetField() {
+		row := []string{num(B)}
+		for _, c := range r.GetCurves() {
+			row = append(row, num(at(c.GetMagnetization(), i)))
+			for _, g := range groupNames(c) {
+				row = append(row, num(at(c.GetGroups()[g].GetValues(), i)))
+			}
+		}
+		cw.Write(row)
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// report prints the engine report on a few lines.
+func report(w io.Writer, e *frustumv1.EngineReport) error {
+	if e == nil {
+		return nil
+	}
+	kind := "real"
+	if e.GetComplex() {
+		kind = "complex Hermitian"
+	}
+	diag := "dense diagonalizations"
+	if e.GetDiagonalizations() == 1 {
+		diag = "dense diagonalization"
+	}
+	fmt.Fprintf(w, "\nEngine: %s of %d states, %s matrices, %d %s in %s s\n",
+		e.GetMethod(), e.GetDimension(), kind, e.GetDiagonalizations(), diag, sig(e.GetSeconds(), 3))
+	if e.GetRoute() != "" {
+		fmt.Fprintf(w, "Route: %s\n", oneLine(e.GetRoute()))
+	}
+	fmt.Fprintf(w, "Sectors: %s\n", sectorSummary(e.GetSectors()))
+	fmt.Fprintf(w, "Memory: about %s at peak (estimate)\n", ed.FormatBytes(e.GetMemoryBytes()))
+	if e.GetSolver() != "" {
+		fmt.Fprintf(w, "Solver: %s\n", oneLine(e.GetSolver()))
+	}
+	for _, warning := range e.GetWarnings() {
+		fmt.Fprintf(w, "Warning: %s\n", oneLine(warning))
+	}
+	return nil
+}
+
+// sectorSummary lists the sectors with their dimensions, the first few by
+// name.
+func sectorSummary(s []*frustumv1.Sector) string {
+	if len(s) == 0 {
+		return "none reported"
+	}
+	largest := int64(0)
+	for _, x := range s {
+		largest = max(largest, x.GetDimension())
+	}
+	const shown = 8
+	var parts []string
+	for i, x := range s {
+		if i == shown {
+			parts = append(parts, fmt.Sprintf("... %d more", len(s)-shown))
+			break
+		}
+		parts = append(parts, fmt.Sprintf("%s (%d)", x.GetLabel(), x.GetDimension()))
+	}
+	return fmt.Sprintf("%d, largest %d states: %s", len(s), largest, strings.Join(parts, ", "))
+}
+
+// progressTo returns a progress callback that draws one updating line on
+// stderr when it is a terminal, and nil (no progress) otherwise.
+func progressTo(stderr io.Writer) ed.Progress {
+	f, ok := stderr.(*os.File)
+	if !ok {
+		return nil
+	}
+	st, err := f.Stat()
+	if err != nil || st.Mode()&os.ModeCharDevice == 0 {
+		return nil
+	}
+	var mu sync.Mutex
+	start := time.Now()
+	var last time.Time
+	return func(stage string, done, total int) {
+		mu.Lock()
+		defer mu.Unlock()
+		now := time.Now()
+		finished := total > 0 && done >= total
+		if now.Sub(start) < time.Second || (!finished && now.Sub(last) < 200*time.Millisecond) {
+			return
+		}
+		last = now
+		fmt.Fprintf(f, "\r\033[K%s: %d/%d", stage, done, total)
+		if finished {
+			fmt.Fprint(f, "\r\033[K")
+		}
+	}
+}

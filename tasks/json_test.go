@@ -1,0 +1,115 @@
+package tasks
+
+import (
+	"encoding/json"
+	"maps"
+	"slices"
+	"strings"
+	"testing"
+
+	"google.golang.org/protobuf/encoding/protojson"
+	"google.golang.org/protobuf/proto"
+
+	"frustum/ed"
+	frustumv1 "frustum/proto/frustum/v1"
+)
+
+// keysOf marshals m with MarshalJSON and returns its top-level object.
+func keysOf(t *testing.T, m proto.Message) map[string]json.RawMessage {
+	t.Helper()
+	b, err := MarshalJSON(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out map[string]json.RawMessage
+	if err := json.Unmarshal(b, &out); err != nil {
+		t.Fatalf("MarshalJSON output is not JSON: %v\n%s", err, b)
+	}
+	return out
+}
+
+func object(t *testing.T, raw json.RawMessage) map[string]json.RawMessage {
+	t.Helper()
+	var out map[string]json.RawMessage
+	if err := json.Unmarshal(raw, &out); err != nil {
+		t.Fatalf("not an object: %s", raw)
+	}
+	return out
+}
+
+func firstOf(t *testing.T, raw json.RawMessage) json.RawMessage {
+	t.Helper()
+	var list []json.RawMessage
+	if err := json.Unmarshal(raw, &list); err != nil || len(list) == 0 {
+		t.Fatalf("not a non-empty list: %s", raw)
+	}
+	return list[0]
+}
+
+func wantKeys(t *testing.T, what string, got map[string]json.RawMessage, want ...string) {
+	t.Helper()
+	if k := slices.Sorted(maps.Keys(got)); !slices.Equal(k, slices.Sorted(slices.Values(want))) {
+		t.Errorf("%s has the fields %q, want %q", what, k, slices.Sorted(slices.Values(want)))
+	}
+}
+
+// TestJSONFieldNames checks the protojson names against FORMAT.md's
+// "Fields of the results that scripts rely on".
+func TestJSONFieldNames(t *testing.T) {
+	spec := keysOf(t, SpectrumResultToProto("x", &ed.SpectrumResult{
+		Energies: []float64{-1}, Levels: []ed.Level{{Energy: -1, Degeneracy: 1, HasSz: true, HasTotalSpin: true}}, Report: sampleReport(),
+	}))
+	wantKeys(t, "SpectrumResult", spec, "clusterName", "field", "energies", "levels", "truncated", "totalStates", "engine")
+	wantKeys(t, "Level", object(t, firstOf(t, spec["levels"])), "energy", "degeneracy", "sz", "totalSpin")
+	wantKeys(t, "EngineReport", object(t, spec["engine"]), "method", "route", "dimension", "sectors", "complex",
+		"memoryBytes", "diagonalizations", "solver", "warnings", "seconds")
+	wantKeys(t, "Sector", object(t, firstOf(t, object(t, spec["engine"])["sectors"])), "label", "sz", "dimension")
+
+	thermo := keysOf(t, ThermoResultToProto("x", &ed.ThermoResult{Temperature: []float64{1}}))
+	wantKeys(t, "ThermoResult", thermo, "clusterName", "field", "temperature", "energy", "specificHeat", "entropy",
+		"magnetization", "susceptibility", "susceptibilityDirection", "engine")
+
+	mag := keysOf(t, MagnetizationResultToProto("x", &ed.MagnetizationResult{
+		Field:  []float64{0, 1},
+		Curves: []ed.Curve{{Temperature: 2, Magnetization: []float64{0, 1}, Groups: map[string][]float64{"impurity": {0, 0.5}}}},
+	}))
+	wantKeys(t, "MagnetizationResult", mag, "clusterName", "field", "direction", "curves", "saturation", "engine")
+	curve := object(t, firstOf(t, mag["curves"]))
+	wantKeys(t, "MagnetizationCurve", curve, "temperature", "magnetization", "groups")
+	wantKeys(t, "groups", object(t, curve["groups"]), "impurity")
+	wantKeys(t, "GroupCurve", object(t, object(t, curve["groups"])["impurity"]), "values")
+}
+
+func TestMarshalJSONOptions(t *testing.T) {
+	b, err := MarshalJSON(&frustumv1.SpectrumResult{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := string(b)
+	// EmitUnpopulated: empty lists and zero numbers are present.
+	for _, w := range []string{`"energies"`, `"levels"`, `"truncated"`, `"totalStates"`, `"clusterName"`} {
+		if !strings.Contains(s, w) {
+			t.Errorf("empty result lacks %s:\n%s", w, s)
+		}
+	}
+	if !strings.HasPrefix(s, "{\n  \"") || !strings.HasSuffix(s, "}\n") {
+		t.Errorf("not multiline with two-space indentation and a final newline:\n%q", s)
+	}
+	if strings.Contains(s, "cluster_name") {
+		t.Error("proto names used instead of lowerCamelCase")
+	}
+	// An unset optional quantum number stays absent.
+	b, _ = MarshalJSON(LevelToProto(ed.Level{Energy: 1, Degeneracy: 2}))
+	if strings.Contains(string(b), "sz") || strings.Contains(string(b), "totalSpin") {
+		t.Errorf("unset sz/totalSpin printed: %s", b)
+	}
+	// And the output reads back.
+	var back frustumv1.Level
+	if err := protojson.Unmarshal(b, &back); err != nil || back.GetDegeneracy() != 2 {
+		t.Errorf("read back: %v, %v", &back, err)
+	}
+	o := JSONOptions()
+	if !o.Multiline || o.Indent != "  " || !o.EmitUnpopulated || o.UseProtoNames {
+		t.Errorf("JSONOptions() = %+v", o)
+	}
+}
