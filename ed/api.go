@@ -50,7 +50,6 @@ type Report struct {
 	Diagonalizations int
 	Solver           string
 	Warnings         []string
-	Seconds          float64
 }
 
 // Level is a group of degenerate eigenstates sharing their good quantum numbers.

@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"time"
 
 	"frustum/cluster"
 )
@@ -24,7 +23,6 @@ import (
 // with Z_s(T) the partition function of sector s about its lowest energy e0_s.
 // Otherwise each field is diagonalized (in S^z sectors where they survive).
 func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options) (*MagnetizationResult, error) {
-	start := time.Now()
 	if err := checkModel(m); err != nil {
 		return nil, err
 	}
@@ -78,7 +76,6 @@ func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationReque
 			}
 		}
 	}
-	rep.Seconds = time.Since(start).Seconds()
 	res.Report = rep
 	return res, nil
 }

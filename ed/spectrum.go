@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"time"
 
 	"frustum/cluster"
 )
@@ -20,7 +19,6 @@ import (
 // diagonalized and shifted by -(mu_B/k_B) B m S^z; otherwise H(B) is
 // diagonalized in S^z sectors when it conserves S^z, and whole otherwise.
 func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Options) (*SpectrumResult, error) {
-	start := time.Now()
 	if err := checkModel(m); err != nil {
 		return nil, err
 	}
@@ -112,7 +110,6 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 		res.Levels = res.Levels[:k]
 		rep.Warnings = append(rep.Warnings, fmt.Sprintf("spectrum truncated to the lowest %d of %d eigenvalues (levels keep their whole degeneracy)", req.Levels, st.sys.total))
 	}
-	rep.Seconds = time.Since(start).Seconds()
 	res.Report = rep
 	return res, nil
 }

@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"time"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/gonum"
@@ -33,7 +32,6 @@ import (
 // to the conserved total S^z this reduces to (mu_B/k_B) m^2 Var(S^z)/T, which
 // is used without eigenvectors.
 func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Options) (*ThermoResult, error) {
-	start := time.Now()
 	if err := checkModel(m); err != nil {
 		return nil, err
 	}
@@ -202,7 +200,6 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 		}
 	}
 	rep.Route = thermoRoute(st, B)
-	rep.Seconds = time.Since(start).Seconds()
 	res.Report = rep
 	return res, nil
 }

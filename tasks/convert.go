@@ -103,7 +103,6 @@ func ReportToProto(r ed.Report) *frustumv1.EngineReport {
 		Diagonalizations: int64(r.Diagonalizations),
 		Solver:           r.Solver,
 		Warnings:         slices.Clone(r.Warnings),
-		Seconds:          r.Seconds,
 	}
 	for i, s := range r.Sectors {
 		ps := &frustumv1.Sector{Label: s.Label, Dimension: int64(s.Dimension)}
@@ -127,7 +126,6 @@ func ReportFromProto(p *frustumv1.EngineReport) ed.Report {
 		Diagonalizations: int(p.GetDiagonalizations()),
 		Solver:           p.GetSolver(),
 		Warnings:         slices.Clone(p.GetWarnings()),
-		Seconds:          p.GetSeconds(),
 	}
 	for _, s := range p.GetSectors() {
 		out.Sectors = append(out.Sectors, ed.Sector{

@@ -24,7 +24,6 @@ func sampleReport() ed.Report {
 		Diagonalizations: 3,
 		Solver:           "test solver",
 		Warnings:         []string{"first", "second"},
-		Seconds:          0.25,
 	}
 }
 

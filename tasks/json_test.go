@@ -62,7 +62,7 @@ func TestJSONFieldNames(t *testing.T) {
 	wantKeys(t, "SpectrumResult", spec, "clusterName", "field", "energies", "levels", "truncated", "totalStates", "engine")
 	wantKeys(t, "Level", object(t, firstOf(t, spec["levels"])), "energy", "degeneracy", "sz", "totalSpin")
 	wantKeys(t, "EngineReport", object(t, spec["engine"]), "method", "route", "dimension", "sectors", "complex",
-		"memoryBytes", "diagonalizations", "solver", "warnings", "seconds")
+		"memoryBytes", "diagonalizations", "solver", "warnings")
 	wantKeys(t, "Sector", object(t, firstOf(t, object(t, spec["engine"])["sectors"])), "label", "sz", "dimension")
 
 	thermo := keysOf(t, ThermoResultToProto("x", &ed.ThermoResult{Temperature: []float64{1}}))

@@ -254,8 +254,8 @@ func report(w io.Writer, e *frustumv1.EngineReport) error {
 	if e.GetDiagonalizations() == 1 {
 		diag = "dense diagonalization"
 	}
-	fmt.Fprintf(w, "\nEngine: %s of %d states, %s matrices, %d %s in %s s\n",
-		e.GetMethod(), e.GetDimension(), kind, e.GetDiagonalizations(), diag, sig(e.GetSeconds(), 3))
+	fmt.Fprintf(w, "\nEngine: %s of %d states, %s matrices, %d %s\n",
+		e.GetMethod(), e.GetDimension(), kind, e.GetDiagonalizations(), diag)
 	if e.GetRoute() != "" {
 		fmt.Fprintf(w, "Route: %s\n", oneLine(e.GetRoute()))
 	}

@@ -605,9 +605,7 @@ type EngineReport struct {
 	// solver names the dense eigensolver backend.
 	Solver string `protobuf:"bytes,8,opt,name=solver,proto3" json:"solver,omitempty"`
 	// warnings: anything in the result that could mislead.
-	Warnings []string `protobuf:"bytes,9,rep,name=warnings,proto3" json:"warnings,omitempty"`
-	// seconds of wall time the engine spent.
-	Seconds       float64 `protobuf:"fixed64,10,opt,name=seconds,proto3" json:"seconds,omitempty"`
+	Warnings      []string `protobuf:"bytes,9,rep,name=warnings,proto3" json:"warnings,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -703,13 +701,6 @@ func (x *EngineReport) GetWarnings() []string {
 		return x.Warnings
 	}
 	return nil
-}
-
-func (x *EngineReport) GetSeconds() float64 {
-	if x != nil {
-		return x.Seconds
-	}
-	return 0
 }
 
 // Level is a group of degenerate eigenstates.
@@ -1265,7 +1256,7 @@ const file_frustum_proto_rawDesc = "" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x13\n" +
 	"\x02sz\x18\x02 \x01(\x01H\x00R\x02sz\x88\x01\x01\x12\x1c\n" +
 	"\tdimension\x18\x03 \x01(\x03R\tdimensionB\x05\n" +
-	"\x03_sz\"\xbf\x02\n" +
+	"\x03_sz\"\xab\x02\n" +
 	"\fEngineReport\x12\x16\n" +
 	"\x06method\x18\x01 \x01(\tR\x06method\x12\x14\n" +
 	"\x05route\x18\x02 \x01(\tR\x05route\x12\x1c\n" +
@@ -1275,9 +1266,8 @@ const file_frustum_proto_rawDesc = "" +
 	"\fmemory_bytes\x18\x06 \x01(\x03R\vmemoryBytes\x12*\n" +
 	"\x10diagonalizations\x18\a \x01(\x03R\x10diagonalizations\x12\x16\n" +
 	"\x06solver\x18\b \x01(\tR\x06solver\x12\x1a\n" +
-	"\bwarnings\x18\t \x03(\tR\bwarnings\x12\x18\n" +
-	"\aseconds\x18\n" +
-	" \x01(\x01R\aseconds\"\x8e\x01\n" +
+	"\bwarnings\x18\t \x03(\tR\bwarningsJ\x04\b\n" +
+	"\x10\v\"\x8e\x01\n" +
 	"\x05Level\x12\x16\n" +
 	"\x06energy\x18\x01 \x01(\x01R\x06energy\x12\x1e\n" +
 	"\n" +
