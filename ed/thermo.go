@@ -16,7 +16,7 @@ import (
 //
 //	E = <H>                          (K)
 //	C = (<H^2> - <H>^2) / T^2         (k_B)
-//	S = ln Z + (E - E_min)/T + ... = ln Z' + (E - E_min)/T, Z' = sum exp(-(E_v - E_min)/T)   (k_B)
+//	S = ln Z' + (E - E_min)/T,  Z' = sum_v exp(-(E_v - E_min)/T)   (k_B)
 //	M = <M_n>                        (mu_B, along the field; 0 at zero field)
 //	chi = dM/dB at fixed direction   (mu_B/T)
 //
