@@ -23,25 +23,11 @@ import (
 // with Z_s(T) the partition function of sector s about its lowest energy e0_s.
 // Otherwise each field is diagonalized (in S^z sectors where they survive).
 func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options) (*MagnetizationResult, error) {
-	if err := checkModel(m); err != nil {
+	p, err := planMagnetization(m, req, opt)
+	if err != nil {
 		return nil, err
 	}
-	if err := checkVector("direction", req.Direction); err != nil {
-		return nil, err
-	}
-	if err := checkTemperatures(req.Temperatures, true); err != nil {
-		return nil, err
-	}
-	if len(req.Fields) == 0 {
-		return nil, &RequestError{Field: "fields", Reason: "no fields given"}
-	}
-	for i, b := range req.Fields {
-		if math.IsNaN(b) || math.IsInf(b, 0) {
-			return nil, &RequestError{Field: fmt.Sprintf("fields[%d]", i), Reason: fmt.Sprintf("%v is not a finite number", b)}
-		}
-	}
-	n, _ := unit(req.Direction)
-	st := newSetup(m, n, true)
+	st, n := p.st, p.direction
 	nb, ng := len(req.Fields), len(st.groups)
 	res := &MagnetizationResult{Field: append([]float64(nil), req.Fields...), Direction: n, Saturation: st.saturation}
 	for _, T := range req.Temperatures {
@@ -54,12 +40,10 @@ func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationReque
 		}
 		res.Curves = append(res.Curves, c)
 	}
-	var rep Report
-	var err error
-	if st.uniform {
-		rep, err = magnetizationShortcut(ctx, st, req, opt, res)
+	if p.analytic {
+		err = magnetizationShortcut(ctx, p, req, opt, res)
 	} else {
-		rep, err = magnetizationPerField(ctx, st, req, opt, res)
+		err = magnetizationPerField(ctx, p, req, opt, res)
 	}
 	if err != nil {
 		return nil, err
@@ -76,7 +60,7 @@ func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationReque
 			}
 		}
 	}
-	res.Report = rep
+	res.Report = p.rep
 	return res, nil
 }
 
@@ -89,22 +73,16 @@ type sectorStates struct {
 	groups [][]float64 // per group, per eigenstate
 }
 
-func magnetizationShortcut(ctx context.Context, st *setup, req MagnetizationRequest, opt Options, res *MagnetizationResult) (Report, error) {
+func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRequest, opt Options, res *MagnetizationResult) error {
+	st := p.st
 	ng := len(st.groups)
-	w := newWorkload(st, opt, ng > 0, false, false, 1)
-	w.complex = !st.h0.isReal()
-	mem, err := w.check(opt.Limits)
-	if err != nil {
-		return Report{}, err
-	}
-	rep := w.report(st, mem)
 	bs := newBasisSet(st.sys, true)
 	secs := make([]sectorStates, len(bs.sectors))
 	src := bs.mirrorSources(st.flipSymmetric)
 	solve := solvedSectors(src)
-	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
+	err := parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
 		i := solve[si]
-		sp, err := diagonalize(st.sys, bs, bs.sectors[i], st.h0, !w.complex, ng > 0)
+		sp, err := diagonalize(st.sys, bs, bs.sectors[i], st.h0, p.isReal, ng > 0)
 		if err != nil {
 			return err
 		}
@@ -116,7 +94,7 @@ func magnetizationShortcut(ctx context.Context, st *setup, req MagnetizationRequ
 		return nil
 	})
 	if err != nil {
-		return Report{}, err
+		return err
 	}
 	for i, j := range src {
 		if j < 0 {
@@ -134,7 +112,7 @@ func magnetizationShortcut(ctx context.Context, st *setup, req MagnetizationRequ
 		}
 		secs[i] = s
 	}
-	rep.Diagonalizations = len(solve)
+	p.rep.Diagonalizations = len(solve)
 	var all []float64
 	for _, s := range secs {
 		all = append(all, s.e...)
@@ -195,23 +173,15 @@ func magnetizationShortcut(ctx context.Context, st *setup, req MagnetizationRequ
 			}
 		}
 	}
-	rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
-	return rep, nil
+	return nil
 }
 
-func magnetizationPerField(ctx context.Context, st *setup, req MagnetizationRequest, opt Options, res *MagnetizationResult) (Report, error) {
+func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRequest, opt Options, res *MagnetizationResult) error {
+	st, isReal := p.st, p.isReal
 	ng := len(st.groups)
 	nb := len(req.Fields)
-	w := newWorkload(st, opt, true, false, true, nb)
-	isReal := st.real
-	w.complex = !isReal
-	mem, err := w.check(opt.Limits)
-	if err != nil {
-		return Report{}, err
-	}
-	rep := w.report(st, mem)
 	bs := newBasisSet(st.sys, st.conserveSz)
-	err = parallel(ctx, nb, nil, opt, "diagonalize fields", func(bi int) error {
+	err := parallel(ctx, nb, nil, opt, "diagonalize fields", func(bi int) error {
 		B := req.Fields[bi]
 		op := st.hamiltonian(B)
 		secs := make([]sectorStates, len(bs.sectors))
@@ -260,11 +230,65 @@ func magnetizationPerField(ctx context.Context, st *setup, req MagnetizationRequ
 		return nil
 	})
 	if err != nil {
+		return err
+	}
+	p.rep.Diagonalizations = nb * len(bs.sectors)
+	return nil
+}
+
+// planMagnetization validates the request and plans the magnetization task.
+func planMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) (*taskPlan, error) {
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("direction", req.Direction); err != nil {
+		return nil, err
+	}
+	if err := checkTemperatures(req.Temperatures, true); err != nil {
+		return nil, err
+	}
+	if len(req.Fields) == 0 {
+		return nil, &RequestError{Field: "fields", Reason: "no fields given"}
+	}
+	for i, b := range req.Fields {
+		if math.IsNaN(b) || math.IsInf(b, 0) {
+			return nil, &RequestError{Field: fmt.Sprintf("fields[%d]", i), Reason: fmt.Sprintf("%v is not a finite number", b)}
+		}
+	}
+	n, _ := unit(req.Direction)
+	st := newSetup(m, n, true)
+	p := &taskPlan{st: st, analytic: st.uniform, direction: n, op: st.h0}
+	var w workload
+	if p.analytic {
+		w = newWorkload(st, opt, len(st.groups) > 0, false, false, 1)
+		p.isReal = st.h0.isReal()
+		p.rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
+	} else {
+		w = newWorkload(st, opt, true, false, true, len(req.Fields))
+		p.isReal = st.real
+	}
+	w.complex = !p.isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	route := p.rep.Route
+	p.rep = w.report(st, mem)
+	p.rep.Route = route
+	if !p.analytic {
+		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (no single effective g along the field), moments from eigenvectors"
+	}
+	return p, nil
+}
+
+// PlanMagnetization returns what Magnetization would do without
+// diagonalizing anything, or the error it would return before starting.
+func PlanMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) (Report, error) {
+	p, err := planMagnetization(m, req, opt)
+	if err != nil {
 		return Report{}, err
 	}
-	rep.Diagonalizations = nb * len(bs.sectors)
-	rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (no single effective g along the field), moments from eigenvectors"
-	return rep, nil
+	return p.rep, nil
 }
 
 // weights returns the Boltzmann factors exp(-(e_v - emin)/T), or at T = 0 the

@@ -19,31 +19,11 @@ import (
 // diagonalized and shifted by -(mu_B/k_B) B m S^z; otherwise H(B) is
 // diagonalized in S^z sectors when it conserves S^z, and whole otherwise.
 func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Options) (*SpectrumResult, error) {
-	if err := checkModel(m); err != nil {
-		return nil, err
-	}
-	if err := checkVector("field", req.Field); err != nil {
-		return nil, err
-	}
-	if req.Levels < 0 {
-		return nil, &RequestError{Field: "levels", Reason: fmt.Sprintf("%d is negative", req.Levels)}
-	}
-	n, B := unit(req.Field)
-	st := newSetup(m, n, B != 0)
-	// Diagonalize H0 when the field only shifts its sectors.
-	applyAnalytically := B == 0 || st.uniform
-	op := st.h0
-	if !applyAnalytically {
-		op = st.hamiltonian(B)
-	}
-	isReal := op.isReal()
-	w := newWorkload(st, opt, false, false, false, 1)
-	w.complex = !isReal
-	mem, err := w.check(opt.Limits)
+	p, err := planSpectrum(m, req, opt)
 	if err != nil {
 		return nil, err
 	}
-	rep := w.report(st, mem)
+	st, op, isReal, B, applyAnalytically, rep := p.st, p.op, p.isReal, p.B, p.analytic, p.rep
 	bs := newBasisSet(st.sys, st.conserveSz)
 	spectra := make([]*sectorSpectrum, len(bs.sectors))
 	src := bs.mirrorSources(st.flipSymmetric && op == st.h0)
@@ -98,7 +78,6 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 	default:
 		res.Levels = groupLevels(xs, tol, false)
 	}
-	rep.Route = spectrumRoute(st, B, applyAnalytically)
 	if req.Levels > 0 && req.Levels < len(res.Energies) {
 		res.Truncated = true
 		res.Energies = res.Energies[:req.Levels]
@@ -112,6 +91,59 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 	}
 	res.Report = rep
 	return res, nil
+}
+
+// taskPlan is what the engine decides before a task runs.
+type taskPlan struct {
+	st       *setup
+	op       *operator // the operator diagonalized (H0 or H(B))
+	isReal   bool
+	B        float64 // field magnitude (T)
+	analytic bool    // the field is applied to the zero-field sectors exactly
+	// direction is the unit field direction (z at zero field).
+	direction [3]float64
+	rep       Report
+}
+
+// planSpectrum validates the request and plans the spectrum task.
+func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan, error) {
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("field", req.Field); err != nil {
+		return nil, err
+	}
+	if req.Levels < 0 {
+		return nil, &RequestError{Field: "levels", Reason: fmt.Sprintf("%d is negative", req.Levels)}
+	}
+	n, B := unit(req.Field)
+	st := newSetup(m, n, B != 0)
+	// Diagonalize H0 when the field only shifts its sectors.
+	p := &taskPlan{st: st, B: B, analytic: B == 0 || st.uniform, op: st.h0}
+	if !p.analytic {
+		p.op = st.hamiltonian(B)
+	}
+	p.isReal = p.op.isReal()
+	w := newWorkload(st, opt, false, false, false, 1)
+	w.complex = !p.isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	p.rep = w.report(st, mem)
+	p.rep.Route = spectrumRoute(st, B, p.analytic)
+	return p, nil
+}
+
+// PlanSpectrum returns what Spectrum would do (method, route, sectors,
+// memory estimate) without diagonalizing anything, or the error it would
+// return before starting (a *RequestError or *LimitError).
+func PlanSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (Report, error) {
+	p, err := planSpectrum(m, req, opt)
+	if err != nil {
+		return Report{}, err
+	}
+	return p.rep, nil
 }
 
 func spectrumRoute(st *setup, B float64, analytic bool) string {

@@ -32,35 +32,16 @@ import (
 // to the conserved total S^z this reduces to (mu_B/k_B) m^2 Var(S^z)/T, which
 // is used without eigenvectors.
 func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Options) (*ThermoResult, error) {
-	if err := checkModel(m); err != nil {
-		return nil, err
-	}
-	if err := checkVector("field", req.Field); err != nil {
-		return nil, err
-	}
-	if err := checkTemperatures(req.Temperatures, false); err != nil {
-		return nil, err
-	}
-	n, B := unit(req.Field)
-	st := newSetup(m, n, true)
-	nt := len(req.Temperatures)
-	res := &ThermoResult{Field: req.Field, Direction: n, Temperature: append([]float64(nil), req.Temperatures...),
-		Energy: make([]float64, nt), SpecificHeat: make([]float64, nt), Entropy: make([]float64, nt),
-		Magnetization: make([]float64, nt), Susceptibility: make([]float64, nt)}
-
-	kubo := !st.uniform
-	op := st.h0
-	if kubo {
-		op = st.hamiltonian(B)
-	}
-	isReal := op.isReal() && st.moment.isReal()
-	w := newWorkload(st, opt, kubo, kubo, false, 1)
-	w.complex = !isReal
-	mem, err := w.check(opt.Limits)
+	p, err := planThermo(m, req, opt)
 	if err != nil {
 		return nil, err
 	}
-	rep := w.report(st, mem)
+	st, op, isReal, B, rep := p.st, p.op, p.isReal, p.B, p.rep
+	kubo := !p.analytic
+	nt := len(req.Temperatures)
+	res := &ThermoResult{Field: req.Field, Direction: p.direction, Temperature: append([]float64(nil), req.Temperatures...),
+		Energy: make([]float64, nt), SpecificHeat: make([]float64, nt), Entropy: make([]float64, nt),
+		Magnetization: make([]float64, nt), Susceptibility: make([]float64, nt)}
 	bs := newBasisSet(st.sys, st.conserveSz)
 	h := MuBOverKB * B * st.mz
 
@@ -199,9 +180,47 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 			res.Magnetization[ti] = 0
 		}
 	}
-	rep.Route = thermoRoute(st, B)
 	res.Report = rep
 	return res, nil
+}
+
+// planThermo validates the request and plans the thermodynamics task.
+func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, error) {
+	if err := checkModel(m); err != nil {
+		return nil, err
+	}
+	if err := checkVector("field", req.Field); err != nil {
+		return nil, err
+	}
+	if err := checkTemperatures(req.Temperatures, false); err != nil {
+		return nil, err
+	}
+	n, B := unit(req.Field)
+	st := newSetup(m, n, true)
+	p := &taskPlan{st: st, B: B, analytic: st.uniform, op: st.h0, direction: n}
+	if !p.analytic {
+		p.op = st.hamiltonian(B)
+	}
+	p.isReal = p.op.isReal() && st.moment.isReal()
+	w := newWorkload(st, opt, !p.analytic, !p.analytic, false, 1)
+	w.complex = !p.isReal
+	mem, err := w.check(opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	p.rep = w.report(st, mem)
+	p.rep.Route = thermoRoute(st, B)
+	return p, nil
+}
+
+// PlanThermo returns what Thermo would do without diagonalizing anything, or
+// the error it would return before starting.
+func PlanThermo(m *cluster.Model, req ThermoRequest, opt Options) (Report, error) {
+	p, err := planThermo(m, req, opt)
+	if err != nil {
+		return Report{}, err
+	}
+	return p.rep, nil
 }
 
 func thermoRoute(st *setup, B float64) string {

@@ -10,7 +10,7 @@
 // versions:
 // 	protoc-gen-go v1.36.12
 // 	protoc        v3.21.12
-// source: frustum.proto
+// source: frustum/v1/frustum.proto
 
 package frustumv1
 
@@ -53,7 +53,7 @@ type Site struct {
 
 func (x *Site) Reset() {
 	*x = Site{}
-	mi := &file_frustum_proto_msgTypes[0]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[0]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -65,7 +65,7 @@ func (x *Site) String() string {
 func (*Site) ProtoMessage() {}
 
 func (x *Site) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[0]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[0]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -78,7 +78,7 @@ func (x *Site) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Site.ProtoReflect.Descriptor instead.
 func (*Site) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{0}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{0}
 }
 
 func (x *Site) GetLabel() string {
@@ -151,7 +151,7 @@ type Bond struct {
 
 func (x *Bond) Reset() {
 	*x = Bond{}
-	mi := &file_frustum_proto_msgTypes[1]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[1]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -163,7 +163,7 @@ func (x *Bond) String() string {
 func (*Bond) ProtoMessage() {}
 
 func (x *Bond) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[1]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[1]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -176,7 +176,7 @@ func (x *Bond) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Bond.ProtoReflect.Descriptor instead.
 func (*Bond) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{1}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{1}
 }
 
 func (x *Bond) GetA() string {
@@ -234,7 +234,7 @@ type Symmetry struct {
 
 func (x *Symmetry) Reset() {
 	*x = Symmetry{}
-	mi := &file_frustum_proto_msgTypes[2]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[2]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -246,7 +246,7 @@ func (x *Symmetry) String() string {
 func (*Symmetry) ProtoMessage() {}
 
 func (x *Symmetry) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[2]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[2]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -259,7 +259,7 @@ func (x *Symmetry) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Symmetry.ProtoReflect.Descriptor instead.
 func (*Symmetry) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{2}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{2}
 }
 
 func (x *Symmetry) GetName() string {
@@ -289,7 +289,7 @@ type Cluster struct {
 
 func (x *Cluster) Reset() {
 	*x = Cluster{}
-	mi := &file_frustum_proto_msgTypes[3]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[3]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -301,7 +301,7 @@ func (x *Cluster) String() string {
 func (*Cluster) ProtoMessage() {}
 
 func (x *Cluster) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[3]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[3]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -314,7 +314,7 @@ func (x *Cluster) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Cluster.ProtoReflect.Descriptor instead.
 func (*Cluster) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{3}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{3}
 }
 
 func (x *Cluster) GetName() string {
@@ -358,7 +358,7 @@ type SpectrumParameters struct {
 
 func (x *SpectrumParameters) Reset() {
 	*x = SpectrumParameters{}
-	mi := &file_frustum_proto_msgTypes[4]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[4]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -370,7 +370,7 @@ func (x *SpectrumParameters) String() string {
 func (*SpectrumParameters) ProtoMessage() {}
 
 func (x *SpectrumParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[4]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[4]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -383,7 +383,7 @@ func (x *SpectrumParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SpectrumParameters.ProtoReflect.Descriptor instead.
 func (*SpectrumParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{4}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{4}
 }
 
 func (x *SpectrumParameters) GetField() []float64 {
@@ -413,7 +413,7 @@ type ThermoParameters struct {
 
 func (x *ThermoParameters) Reset() {
 	*x = ThermoParameters{}
-	mi := &file_frustum_proto_msgTypes[5]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -425,7 +425,7 @@ func (x *ThermoParameters) String() string {
 func (*ThermoParameters) ProtoMessage() {}
 
 func (x *ThermoParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[5]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -438,7 +438,7 @@ func (x *ThermoParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ThermoParameters.ProtoReflect.Descriptor instead.
 func (*ThermoParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{5}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{5}
 }
 
 func (x *ThermoParameters) GetTemperatures() []float64 {
@@ -471,7 +471,7 @@ type MagnetizationParameters struct {
 
 func (x *MagnetizationParameters) Reset() {
 	*x = MagnetizationParameters{}
-	mi := &file_frustum_proto_msgTypes[6]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -483,7 +483,7 @@ func (x *MagnetizationParameters) String() string {
 func (*MagnetizationParameters) ProtoMessage() {}
 
 func (x *MagnetizationParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[6]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -496,7 +496,7 @@ func (x *MagnetizationParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationParameters.ProtoReflect.Descriptor instead.
 func (*MagnetizationParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{6}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *MagnetizationParameters) GetTemperatures() []float64 {
@@ -535,7 +535,7 @@ type Sector struct {
 
 func (x *Sector) Reset() {
 	*x = Sector{}
-	mi := &file_frustum_proto_msgTypes[7]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -547,7 +547,7 @@ func (x *Sector) String() string {
 func (*Sector) ProtoMessage() {}
 
 func (x *Sector) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[7]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -560,7 +560,7 @@ func (x *Sector) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Sector.ProtoReflect.Descriptor instead.
 func (*Sector) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{7}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{7}
 }
 
 func (x *Sector) GetLabel() string {
@@ -612,7 +612,7 @@ type EngineReport struct {
 
 func (x *EngineReport) Reset() {
 	*x = EngineReport{}
-	mi := &file_frustum_proto_msgTypes[8]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -624,7 +624,7 @@ func (x *EngineReport) String() string {
 func (*EngineReport) ProtoMessage() {}
 
 func (x *EngineReport) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[8]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -637,7 +637,7 @@ func (x *EngineReport) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use EngineReport.ProtoReflect.Descriptor instead.
 func (*EngineReport) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{8}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *EngineReport) GetMethod() string {
@@ -721,7 +721,7 @@ type Level struct {
 
 func (x *Level) Reset() {
 	*x = Level{}
-	mi := &file_frustum_proto_msgTypes[9]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -733,7 +733,7 @@ func (x *Level) String() string {
 func (*Level) ProtoMessage() {}
 
 func (x *Level) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[9]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -746,7 +746,7 @@ func (x *Level) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Level.ProtoReflect.Descriptor instead.
 func (*Level) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{9}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *Level) GetEnergy() float64 {
@@ -801,7 +801,7 @@ type SpectrumResult struct {
 
 func (x *SpectrumResult) Reset() {
 	*x = SpectrumResult{}
-	mi := &file_frustum_proto_msgTypes[10]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -813,7 +813,7 @@ func (x *SpectrumResult) String() string {
 func (*SpectrumResult) ProtoMessage() {}
 
 func (x *SpectrumResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[10]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -826,7 +826,7 @@ func (x *SpectrumResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SpectrumResult.ProtoReflect.Descriptor instead.
 func (*SpectrumResult) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{10}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *SpectrumResult) GetClusterName() string {
@@ -907,7 +907,7 @@ type ThermoResult struct {
 
 func (x *ThermoResult) Reset() {
 	*x = ThermoResult{}
-	mi := &file_frustum_proto_msgTypes[11]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -919,7 +919,7 @@ func (x *ThermoResult) String() string {
 func (*ThermoResult) ProtoMessage() {}
 
 func (x *ThermoResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[11]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -932,7 +932,7 @@ func (x *ThermoResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ThermoResult.ProtoReflect.Descriptor instead.
 func (*ThermoResult) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{11}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *ThermoResult) GetClusterName() string {
@@ -1016,7 +1016,7 @@ type GroupCurve struct {
 
 func (x *GroupCurve) Reset() {
 	*x = GroupCurve{}
-	mi := &file_frustum_proto_msgTypes[12]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1028,7 +1028,7 @@ func (x *GroupCurve) String() string {
 func (*GroupCurve) ProtoMessage() {}
 
 func (x *GroupCurve) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[12]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1041,7 +1041,7 @@ func (x *GroupCurve) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GroupCurve.ProtoReflect.Descriptor instead.
 func (*GroupCurve) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{12}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *GroupCurve) GetValues() []float64 {
@@ -1066,7 +1066,7 @@ type MagnetizationCurve struct {
 
 func (x *MagnetizationCurve) Reset() {
 	*x = MagnetizationCurve{}
-	mi := &file_frustum_proto_msgTypes[13]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1078,7 +1078,7 @@ func (x *MagnetizationCurve) String() string {
 func (*MagnetizationCurve) ProtoMessage() {}
 
 func (x *MagnetizationCurve) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[13]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1091,7 +1091,7 @@ func (x *MagnetizationCurve) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationCurve.ProtoReflect.Descriptor instead.
 func (*MagnetizationCurve) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{13}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *MagnetizationCurve) GetTemperature() float64 {
@@ -1134,7 +1134,7 @@ type MagnetizationResult struct {
 
 func (x *MagnetizationResult) Reset() {
 	*x = MagnetizationResult{}
-	mi := &file_frustum_proto_msgTypes[14]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1146,7 +1146,7 @@ func (x *MagnetizationResult) String() string {
 func (*MagnetizationResult) ProtoMessage() {}
 
 func (x *MagnetizationResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_proto_msgTypes[14]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1159,7 +1159,7 @@ func (x *MagnetizationResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationResult.ProtoReflect.Descriptor instead.
 func (*MagnetizationResult) Descriptor() ([]byte, []int) {
-	return file_frustum_proto_rawDescGZIP(), []int{14}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *MagnetizationResult) GetClusterName() string {
@@ -1204,11 +1204,11 @@ func (x *MagnetizationResult) GetEngine() *EngineReport {
 	return nil
 }
 
-var File_frustum_proto protoreflect.FileDescriptor
+var File_frustum_v1_frustum_proto protoreflect.FileDescriptor
 
-const file_frustum_proto_rawDesc = "" +
+const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\n" +
-	"\rfrustum.proto\x12\n" +
+	"\x18frustum/v1/frustum.proto\x12\n" +
 	"frustum.v1\"\xd7\x01\n" +
 	"\x04Site\x12\x14\n" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x17\n" +
@@ -1319,19 +1319,19 @@ const file_frustum_proto_rawDesc = "" +
 	"\x06engine\x18\x06 \x01(\v2\x18.frustum.v1.EngineReportR\x06engineB$Z\"frustum/proto/frustum/v1;frustumv1b\x06proto3"
 
 var (
-	file_frustum_proto_rawDescOnce sync.Once
-	file_frustum_proto_rawDescData []byte
+	file_frustum_v1_frustum_proto_rawDescOnce sync.Once
+	file_frustum_v1_frustum_proto_rawDescData []byte
 )
 
-func file_frustum_proto_rawDescGZIP() []byte {
-	file_frustum_proto_rawDescOnce.Do(func() {
-		file_frustum_proto_rawDescData = protoimpl.X.CompressGZIP(unsafe.Slice(unsafe.StringData(file_frustum_proto_rawDesc), len(file_frustum_proto_rawDesc)))
+func file_frustum_v1_frustum_proto_rawDescGZIP() []byte {
+	file_frustum_v1_frustum_proto_rawDescOnce.Do(func() {
+		file_frustum_v1_frustum_proto_rawDescData = protoimpl.X.CompressGZIP(unsafe.Slice(unsafe.StringData(file_frustum_v1_frustum_proto_rawDesc), len(file_frustum_v1_frustum_proto_rawDesc)))
 	})
-	return file_frustum_proto_rawDescData
+	return file_frustum_v1_frustum_proto_rawDescData
 }
 
-var file_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 16)
-var file_frustum_proto_goTypes = []any{
+var file_frustum_v1_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 16)
+var file_frustum_v1_frustum_proto_goTypes = []any{
 	(*Site)(nil),                    // 0: frustum.v1.Site
 	(*Bond)(nil),                    // 1: frustum.v1.Bond
 	(*Symmetry)(nil),                // 2: frustum.v1.Symmetry
@@ -1349,7 +1349,7 @@ var file_frustum_proto_goTypes = []any{
 	(*MagnetizationResult)(nil),     // 14: frustum.v1.MagnetizationResult
 	nil,                             // 15: frustum.v1.MagnetizationCurve.GroupsEntry
 }
-var file_frustum_proto_depIdxs = []int32{
+var file_frustum_v1_frustum_proto_depIdxs = []int32{
 	0,  // 0: frustum.v1.Cluster.sites:type_name -> frustum.v1.Site
 	1,  // 1: frustum.v1.Cluster.bonds:type_name -> frustum.v1.Bond
 	2,  // 2: frustum.v1.Cluster.symmetries:type_name -> frustum.v1.Symmetry
@@ -1368,30 +1368,30 @@ var file_frustum_proto_depIdxs = []int32{
 	0,  // [0:11] is the sub-list for field type_name
 }
 
-func init() { file_frustum_proto_init() }
-func file_frustum_proto_init() {
-	if File_frustum_proto != nil {
+func init() { file_frustum_v1_frustum_proto_init() }
+func file_frustum_v1_frustum_proto_init() {
+	if File_frustum_v1_frustum_proto != nil {
 		return
 	}
-	file_frustum_proto_msgTypes[0].OneofWrappers = []any{}
-	file_frustum_proto_msgTypes[1].OneofWrappers = []any{}
-	file_frustum_proto_msgTypes[7].OneofWrappers = []any{}
-	file_frustum_proto_msgTypes[9].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[0].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[1].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[7].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[9].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
-			RawDescriptor: unsafe.Slice(unsafe.StringData(file_frustum_proto_rawDesc), len(file_frustum_proto_rawDesc)),
+			RawDescriptor: unsafe.Slice(unsafe.StringData(file_frustum_v1_frustum_proto_rawDesc), len(file_frustum_v1_frustum_proto_rawDesc)),
 			NumEnums:      0,
 			NumMessages:   16,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
-		GoTypes:           file_frustum_proto_goTypes,
-		DependencyIndexes: file_frustum_proto_depIdxs,
-		MessageInfos:      file_frustum_proto_msgTypes,
+		GoTypes:           file_frustum_v1_frustum_proto_goTypes,
+		DependencyIndexes: file_frustum_v1_frustum_proto_depIdxs,
+		MessageInfos:      file_frustum_v1_frustum_proto_msgTypes,
 	}.Build()
-	File_frustum_proto = out.File
-	file_frustum_proto_goTypes = nil
-	file_frustum_proto_depIdxs = nil
+	File_frustum_v1_frustum_proto = out.File
+	file_frustum_v1_frustum_proto_goTypes = nil
+	file_frustum_v1_frustum_proto_depIdxs = nil
 }
