@@ -46,7 +46,7 @@ type Report struct {
 	Dimension        int64
 	Sectors          []Sector
 	Complex          bool
-	MemoryBytes      int64
+	MemoryBytes      int64 // peak estimate with one block at a time (bytes)
 	Diagonalizations int
 	Solver           string
 	Warnings         []string

@@ -27,6 +27,7 @@ func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationReque
 	if err != nil {
 		return nil, err
 	}
+	opt.Workers = p.workers
 	st, n := p.st, p.direction
 	nb, ng := len(req.Fields), len(st.groups)
 	res := &MagnetizationResult{Field: append([]float64(nil), req.Fields...), Direction: n, Saturation: st.saturation}
@@ -268,15 +269,20 @@ func planMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) 
 		p.isReal = st.real
 	}
 	w.complex = !p.isReal
-	mem, err := w.check(opt.Limits)
+	mem, workers, err := w.check(opt.Limits)
 	if err != nil {
 		return nil, err
 	}
 	route := p.rep.Route
 	p.rep = w.report(st, mem)
+	p.workers = workers
 	p.rep.Route = route
 	if !p.analytic {
-		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (no single effective g along the field), moments from eigenvectors"
+		why := "the Zeeman term does not commute with the field-free part"
+		if st.conserveSz {
+			why = "the sites' effective g values along the field differ"
+		}
+		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (" + why + "), moments from eigenvectors"
 	}
 	return p, nil
 }

@@ -28,8 +28,8 @@ type workload struct {
 //	            eigenvalues only, 3 with eigenvectors (matrix, vectors, solver
 //	            work), 6 with the susceptibility's matrix elements
 //
-// summed over the blocks that are in flight at once.
-func (w workload) memoryEstimate() (need, largest int64) {
+// summed over the k blocks that are in flight at once.
+func (w workload) memoryEstimate(k int) (need, largest int64) {
 	e := 8.0
 	if w.complex {
 		e = 16
@@ -47,7 +47,6 @@ func (w workload) memoryEstimate() (need, largest int64) {
 		largest = d[0]
 	}
 	need = 20 * w.total
-	k := w.inFlight
 	if k < 1 {
 		k = 1
 	}
@@ -64,17 +63,27 @@ func (w workload) memoryEstimate() (need, largest int64) {
 	return need, largest
 }
 
-// check refuses the workload when it exceeds the memory limit.
-func (w workload) check(l Limits) (int64, error) {
-	need, largest := w.memoryEstimate()
+// check refuses the workload when even one block at a time exceeds the
+// memory limit, and otherwise returns the estimate for one block at a time
+// (the figure reported, the same whatever the worker count) and the number
+// of workers whose blocks fit in the limit together (at most inFlight).
+func (w workload) check(l Limits) (need int64, workers int, err error) {
 	limit := l.MaxMemory
 	if limit <= 0 {
 		limit = DefaultMaxMemory
 	}
+	need, largest := w.memoryEstimate(1)
 	if need > limit {
-		return need, &LimitError{Dimension: w.total, LargestSector: largest, Need: need, Limit: limit}
+		return need, 0, &LimitError{Dimension: w.total, LargestSector: largest, Need: need, Limit: limit}
 	}
-	return need, nil
+	workers = 1
+	for k := 2; k <= w.inFlight; k++ {
+		if n, _ := w.memoryEstimate(k); n > limit {
+			break
+		}
+		workers = k
+	}
+	return need, workers, nil
 }
 
 // newWorkload describes diagonalizing every sector of st's basis partition.

@@ -23,6 +23,7 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 	if err != nil {
 		return nil, err
 	}
+	opt.Workers = p.workers
 	st, op, isReal, B, applyAnalytically, rep := p.st, p.op, p.isReal, p.B, p.analytic, p.rep
 	bs := newBasisSet(st.sys, st.conserveSz)
 	spectra := make([]*sectorSpectrum, len(bs.sectors))
@@ -102,7 +103,10 @@ type taskPlan struct {
 	analytic bool    // the field is applied to the zero-field sectors exactly
 	// direction is the unit field direction (z at zero field).
 	direction [3]float64
-	rep       Report
+	// workers: how many blocks may be diagonalized at once within the
+	// memory limit.
+	workers int
+	rep     Report
 }
 
 // planSpectrum validates the request and plans the spectrum task.
@@ -126,11 +130,12 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	p.isReal = p.op.isReal()
 	w := newWorkload(st, opt, false, false, false, 1)
 	w.complex = !p.isReal
-	mem, err := w.check(opt.Limits)
+	mem, workers, err := w.check(opt.Limits)
 	if err != nil {
 		return nil, err
 	}
 	p.rep = w.report(st, mem)
+	p.workers = workers
 	p.rep.Route = spectrumRoute(st, B, p.analytic)
 	return p, nil
 }

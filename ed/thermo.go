@@ -36,6 +36,7 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 	if err != nil {
 		return nil, err
 	}
+	opt.Workers = p.workers
 	st, op, isReal, B, rep := p.st, p.op, p.isReal, p.B, p.rep
 	kubo := !p.analytic
 	nt := len(req.Temperatures)
@@ -204,11 +205,12 @@ func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, er
 	p.isReal = p.op.isReal() && st.moment.isReal()
 	w := newWorkload(st, opt, !p.analytic, !p.analytic, false, 1)
 	w.complex = !p.isReal
-	mem, err := w.check(opt.Limits)
+	mem, workers, err := w.check(opt.Limits)
 	if err != nil {
 		return nil, err
 	}
 	p.rep = w.report(st, mem)
+	p.workers = workers
 	p.rep.Route = thermoRoute(st, B)
 	return p, nil
 }

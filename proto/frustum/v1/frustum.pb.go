@@ -598,7 +598,11 @@ type EngineReport struct {
 	Sectors []*Sector `protobuf:"bytes,4,rep,name=sectors,proto3" json:"sectors,omitempty"`
 	// complex is true when the sector matrices are complex Hermitian.
 	Complex bool `protobuf:"varint,5,opt,name=complex,proto3" json:"complex,omitempty"`
-	// memory_bytes is the engine's estimate of the peak memory of the task.
+	// memory_bytes is the engine's estimate of the peak memory of the task with
+	// one block diagonalized at a time, in bytes; the engine diagonalizes more
+	// blocks at once only where they fit in its memory limit. It does not
+	// depend on the number of cores, so the same task reports the same figure
+	// everywhere.
 	MemoryBytes int64 `protobuf:"varint,6,opt,name=memory_bytes,json=memoryBytes,proto3" json:"memory_bytes,omitempty"`
 	// diagonalizations counts the dense sector diagonalizations performed.
 	Diagonalizations int64 `protobuf:"varint,7,opt,name=diagonalizations,proto3" json:"diagonalizations,omitempty"`
