@@ -8,6 +8,7 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	"frustum/cluster"
+	"frustum/ed"
 	frustumv1 "frustum/proto/frustum/v1"
 	"frustum/tasks"
 )
@@ -29,48 +30,75 @@ func loadCluster(path string) (*frustumv1.Cluster, error) {
 	return m.ToProto(), nil
 }
 
-func runSpectrum(ctx context.Context, cmd *command, args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet(cmd, "--cluster FILE [--field Bx,By,Bz] [--levels K] [--json | --csv] [--max-memory SIZE]",
-		`Prints the energy levels of the cluster at one field: each level's energy (K),
+// task is one of the three tasks: its own flags, which build a JobSpec, how
+// it runs in-process, and how its result prints. The task commands, their
+// --server form and submit all share it, so that the same flags give the
+// same spec and the same result prints the same way.
+type task struct {
+	name     string
+	synopsis string // the task's own flags
+	about    string
+	example  string
+	// flags registers the task's own flags and returns the function that
+	// builds the spec from them once they are parsed.
+	flags func(fs *flagSet) func() (*frustumv1.JobSpec, error)
+	// local runs spec in-process.
+	local func(ctx context.Context, spec *frustumv1.JobSpec, opt ed.Options) (proto.Message, error)
+	// table and csv print a result of the task.
+	table, csv func(w io.Writer, res proto.Message) error
+}
+
+func tasksList() []*task { return []*task{spectrumTask, thermoTask, magnetizationTask} }
+
+func findTask(name string) *task {
+	for _, t := range tasksList() {
+		if t.name == name {
+			return t
+		}
+	}
+	return nil
+}
+
+var spectrumTask = &task{
+	name:     "spectrum",
+	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K]",
+	about: `Prints the energy levels of the cluster at one field: each level's energy (K),
 its energy above the ground state, its degeneracy, and its total S^z and total
 spin S where those are good quantum numbers. --csv prints one row per level;
 with --json, "energies" holds every eigenvalue with multiplicity, ascending,
 and "levels" the grouped levels.`,
-		`frustum spectrum --cluster testdata/dimer.json
-frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 --json`)
-	var (
-		path   string
-		field  [3]float64
-		given  bool
-		levels int
-		out    outputFlags
-	)
-	clusterFlag(fs, &path)
-	fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
-	fs.funcFlag("levels", "print the lowest `K` energies only (default 0: all)", levelsFlag(&levels))
-	out.register(fs)
-	if err := fs.parse(args, stdout); err != nil {
-		return err
-	}
-	if err := out.check(); err != nil {
-		return err
-	}
-	c, err := loadCluster(path)
-	if err != nil {
-		return err
-	}
-	p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels)}
-	res, err := tasks.Spectrum(ctx, c, p, out.options(stderr))
-	if err != nil {
-		return err
-	}
-	return printResult(stdout, stderr, out, res, func(w io.Writer) error { return spectrumTable(w, res) },
-		func(w io.Writer) error { return spectrumCSV(w, res) })
+	example: `frustum spectrum --cluster testdata/dimer.json
+frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 --json`,
+	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
+		var (
+			path   string
+			field  [3]float64
+			given  bool
+			levels int
+		)
+		clusterFlag(fs, &path)
+		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
+		fs.funcFlag("levels", "print the lowest `K` energies only (default 0: all)", levelsFlag(&levels))
+		return func() (*frustumv1.JobSpec, error) {
+			c, err := loadCluster(path)
+			if err != nil {
+				return nil, err
+			}
+			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels)}
+			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Spectrum{Spectrum: p}}, nil
+		}
+	},
+	local: func(ctx context.Context, spec *frustumv1.JobSpec, opt ed.Options) (proto.Message, error) {
+		return tasks.Spectrum(ctx, spec.GetCluster(), spec.GetSpectrum(), opt)
+	},
+	table: func(w io.Writer, res proto.Message) error { return spectrumTable(w, res.(*frustumv1.SpectrumResult)) },
+	csv:   func(w io.Writer, res proto.Message) error { return spectrumCSV(w, res.(*frustumv1.SpectrumResult)) },
 }
 
-func runThermo(ctx context.Context, cmd *command, args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet(cmd, "--cluster FILE --temps GRID [--field Bx,By,Bz] [--json | --csv] [--max-memory SIZE]",
-		`Prints the thermodynamics of the cluster at one field, one row per
+var thermoTask = &task{
+	name:     "thermo",
+	synopsis: "--cluster FILE --temps GRID [--field Bx,By,Bz]",
+	about: `Prints the thermodynamics of the cluster at one field, one row per
 temperature: the energy <H> (K), the specific heat C (k_B), the entropy S
 (k_B), the magnetization M along the field (mu_B; 0 at zero field) and the
 isothermal susceptibility chi = dM/dB along the field, or along z at zero
@@ -79,44 +107,41 @@ field (mu_B/T, Van Vleck part included). All per cluster.
 A GRID is a number (5), a list (1,2,5), a linear range with both ends
 included (0:15:61) or a logarithmic one (log:0.5:300:100). Temperatures must
 be > 0 K.`,
-		`frustum thermo --cluster testdata/dimer.json --temps log:0.5:300:100
-frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,2 --csv`)
-	var (
-		path  string
-		temps []float64
-		field [3]float64
-		given bool
-		out   outputFlags
-	)
-	clusterFlag(fs, &path)
-	fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
-	fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
-	out.register(fs)
-	if err := fs.parse(args, stdout); err != nil {
-		return err
-	}
-	if err := out.check(); err != nil {
-		return err
-	}
-	if temps == nil {
-		return usagef("--temps GRID is required")
-	}
-	c, err := loadCluster(path)
-	if err != nil {
-		return err
-	}
-	p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:]}
-	res, err := tasks.Thermo(ctx, c, p, out.options(stderr))
-	if err != nil {
-		return err
-	}
-	return printResult(stdout, stderr, out, res, func(w io.Writer) error { return thermoTable(w, res) },
-		func(w io.Writer) error { return thermoCSV(w, res) })
+	example: `frustum thermo --cluster testdata/dimer.json --temps log:0.5:300:100
+frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,2 --csv`,
+	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
+		var (
+			path  string
+			temps []float64
+			field [3]float64
+			given bool
+		)
+		clusterFlag(fs, &path)
+		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
+		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
+		return func() (*frustumv1.JobSpec, error) {
+			if temps == nil {
+				return nil, usagef("--temps GRID is required")
+			}
+			c, err := loadCluster(path)
+			if err != nil {
+				return nil, err
+			}
+			p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:]}
+			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Thermo{Thermo: p}}, nil
+		}
+	},
+	local: func(ctx context.Context, spec *frustumv1.JobSpec, opt ed.Options) (proto.Message, error) {
+		return tasks.Thermo(ctx, spec.GetCluster(), spec.GetThermo(), opt)
+	},
+	table: func(w io.Writer, res proto.Message) error { return thermoTable(w, res.(*frustumv1.ThermoResult)) },
+	csv:   func(w io.Writer, res proto.Message) error { return thermoCSV(w, res.(*frustumv1.ThermoResult)) },
 }
 
-func runMagnetization(ctx context.Context, cmd *command, args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet(cmd, "--cluster FILE --temps GRID --fields GRID [--direction x,y,z] [--json | --csv] [--max-memory SIZE]",
-		`Prints magnetization curves M(B), one per temperature: the moment of the
+var magnetizationTask = &task{
+	name:     "magnetization",
+	synopsis: "--cluster FILE --temps GRID --fields GRID [--direction x,y,z]",
+	about: `Prints magnetization curves M(B), one per temperature: the moment of the
 whole cluster along the field direction and that of each site group (the
 "group" tags of the cluster file), in mu_B per cluster, at each field
 magnitude B (T) along --direction. Negative fields point against the
@@ -124,47 +149,98 @@ direction. Temperatures must be >= 0 K; 0 is the ground-state limit.
 
 A GRID is a number (5), a list (1,2,5), a linear range with both ends
 included (0:15:61) or a logarithmic one (log:0.5:300:100).`,
-		`frustum magnetization --cluster testdata/demo-multimer.json --temps 2,5,10 --fields 0:15:61
-frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:40:81 --direction 1,1,0 --csv`)
-	var (
-		path         string
-		temps        []float64
-		fields       []float64
-		direction    [3]float64
-		hasDirection bool
-		out          outputFlags
-	)
-	clusterFlag(fs, &path)
-	fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
-	fs.funcFlag("fields", "field magnitudes in T along the direction, a `GRID` (required)", gridFlag(&fields))
-	fs.funcFlag("direction", "field direction `x,y,z`, any length but not zero (default 0,0,1)", vectorFlag("direction", &direction, &hasDirection, true))
-	out.register(fs)
-	if err := fs.parse(args, stdout); err != nil {
-		return err
+	example: `frustum magnetization --cluster testdata/demo-multimer.json --temps 2,5,10 --fields 0:15:61
+frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:40:81 --direction 1,1,0 --csv`,
+	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
+		var (
+			path         string
+			temps        []float64
+			fields       []float64
+			direction    [3]float64
+			hasDirection bool
+		)
+		clusterFlag(fs, &path)
+		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
+		fs.funcFlag("fields", "field magnitudes in T along the direction, a `GRID` (required)", gridFlag(&fields))
+		fs.funcFlag("direction", "field direction `x,y,z`, any length but not zero (default 0,0,1)", vectorFlag("direction", &direction, &hasDirection, true))
+		return func() (*frustumv1.JobSpec, error) {
+			if temps == nil {
+				return nil, usagef("--temps GRID is required")
+			}
+			if fields == nil {
+				return nil, usagef("--fields GRID is required")
+			}
+			c, err := loadCluster(path)
+			if err != nil {
+				return nil, err
+			}
+			p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields}
+			if hasDirection {
+				p.Direction = direction[:]
+			}
+			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Magnetization{Magnetization: p}}, nil
+		}
+	},
+	local: func(ctx context.Context, spec *frustumv1.JobSpec, opt ed.Options) (proto.Message, error) {
+		return tasks.Magnetization(ctx, spec.GetCluster(), spec.GetMagnetization(), opt)
+	},
+	table: func(w io.Writer, res proto.Message) error {
+		return magnetizationTable(w, res.(*frustumv1.MagnetizationResult))
+	},
+	csv: func(w io.Writer, res proto.Message) error {
+		return magnetizationCSV(w, res.(*frustumv1.MagnetizationResult))
+	},
+}
+
+// remoteAbout ends the help of each task command.
+const remoteAbout = `
+
+With --server HOST:PORT the task runs as a job on that frustumd instead of
+in-process, and prints exactly the same output; on a terminal, a progress
+line goes to stderr meanwhile. Interrupting cancels the job. (frustum submit
+starts the job and returns at once.)`
+
+// runTask is the command of task t: it runs in-process, or on a server with
+// --server, and prints the result.
+func runTask(t *task) func(ctx context.Context, cmd *command, args []string, stdout, stderr io.Writer) error {
+	return func(ctx context.Context, cmd *command, args []string, stdout, stderr io.Writer) error {
+		fs := newFlagSet(cmd, t.synopsis+" [--json | --csv] [--max-memory SIZE] [--server HOST:PORT [--token-file FILE] [--tls-ca FILE]]",
+			t.about+remoteAbout, t.example)
+		build := t.flags(fs)
+		var (
+			out    outputFlags
+			remote remoteFlags
+		)
+		out.register(fs)
+		remote.register(fs, false)
+		if err := fs.parse(args, stdout); err != nil {
+			return err
+		}
+		if err := out.check(); err != nil {
+			return err
+		}
+		if err := remote.check(); err != nil {
+			return err
+		}
+		if remote.server != "" && out.maxMemory != 0 {
+			return usagef("--max-memory limits in-process runs; with --server the server's operator sets the limit")
+		}
+		spec, err := build()
+		if err != nil {
+			return err
+		}
+		var res proto.Message
+		if remote.server != "" {
+			res, err = remote.run(ctx, spec, stderr)
+		} else {
+			res, err = t.local(ctx, spec, out.options(stderr))
+		}
+		if err != nil {
+			return err
+		}
+		return printResult(stdout, stderr, out, res, func(w io.Writer) error { return t.table(w, res) },
+			func(w io.Writer) error { return t.csv(w, res) })
 	}
-	if err := out.check(); err != nil {
-		return err
-	}
-	if temps == nil {
-		return usagef("--temps GRID is required")
-	}
-	if fields == nil {
-		return usagef("--fields GRID is required")
-	}
-	c, err := loadCluster(path)
-	if err != nil {
-		return err
-	}
-	p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields}
-	if hasDirection {
-		p.Direction = direction[:]
-	}
-	res, err := tasks.Magnetization(ctx, c, p, out.options(stderr))
-	if err != nil {
-		return err
-	}
-	return printResult(stdout, stderr, out, res, func(w io.Writer) error { return magnetizationTable(w, res) },
-		func(w io.Writer) error { return magnetizationCSV(w, res) })
 }
 
 // printResult writes res as JSON, CSV or a table; with JSON or CSV the

@@ -140,6 +140,40 @@ func (fs *flagSet) help(w io.Writer) {
 	}
 }
 
+// parseOperands parses args, whose flags may come before, between and after
+// the operands (the arguments that are not flags; all of them after "--"),
+// and returns the operands. It refuses fewer than least or more than most
+// of them, naming them as what (such as "job ID").
+func (fs *flagSet) parseOperands(args []string, stdout io.Writer, what string, least, most int) ([]string, error) {
+	var operands []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				fs.help(stdout)
+				return nil, errHelpShown
+			}
+			return nil, &usageError{msg: flagMessage(err)}
+		}
+		rest := fs.Args()
+		if len(rest) == 0 {
+			break
+		}
+		if consumed := len(args) - len(rest); consumed > 0 && args[consumed-1] == "--" {
+			operands = append(operands, rest...)
+			break
+		}
+		operands = append(operands, rest[0])
+		args = rest[1:]
+	}
+	switch {
+	case len(operands) < least:
+		return nil, usagef("give the %s", what)
+	case len(operands) > most:
+		return nil, usagef("unexpected argument %q: give one %s", operands[most], what)
+	}
+	return operands, nil
+}
+
 // vectorFlag parses a vector flag into *p and records that it was given.
 func vectorFlag(name string, p *[3]float64, given *bool, nonZero bool) func(string) error {
 	return func(s string) error {
@@ -267,9 +301,12 @@ func describe(err error) (string, int) {
 	var re *ed.RequestError
 	var pe *tasks.ParameterError
 	var le *ed.LimitError
+	var se *serverError
 	switch {
 	case errors.As(err, &ue):
 		return ue.msg, exitUsage
+	case errors.As(err, &se):
+		return describeRemote(se), exitFailure
 	case errors.As(err, &re):
 		return requestMessage(re.Field, re.Reason)
 	case errors.As(err, &pe):

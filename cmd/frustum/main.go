@@ -6,6 +6,12 @@
 //	frustum spectrum      --cluster FILE [--field Bx,By,Bz] [--levels K]
 //	frustum thermo        --cluster FILE --temps GRID [--field Bx,By,Bz]
 //	frustum magnetization --cluster FILE --temps GRID --fields GRID [--direction x,y,z]
+//	frustum submit TASK [the task's flags]
+//	frustum jobs [--state STATE] [--json]
+//	frustum job ID [--json]
+//	frustum watch ID
+//	frustum cancel ID
+//	frustum delete ID
 //	frustum demo
 //	frustum version
 //	frustum help [COMMAND]
@@ -16,6 +22,14 @@
 // engine refuses a task that would need more). Without --json or --csv they
 // print an aligned table with the unit in every column header, followed by a
 // few lines on what the engine did.
+//
+// With --server HOST:PORT (and --token-file FILE, --tls-ca FILE where the
+// server needs them) a task runs as a job on frustumd, the job service, and
+// prints exactly what the in-process run prints. The job commands (submit,
+// jobs, job, watch, cancel, delete) talk to frustumd at --server, else at
+// $FRUSTUM_SERVER, else at 127.0.0.1:7447; the token file defaults to
+// $FRUSTUM_TOKEN_FILE. An error of the server is one line on stderr naming
+// the gRPC status code, such as NOT_FOUND, and exits with status 1.
 //
 // A cluster FILE is the protojson form of the Cluster message; see testdata/
 // for examples. Units: energies and temperatures in K, fields in T, moments
@@ -71,9 +85,15 @@ type command struct {
 
 func commands() []*command {
 	return []*command{
-		{name: "spectrum", summary: "energy levels at one field", run: runSpectrum},
-		{name: "thermo", summary: "energy, specific heat, entropy, magnetization and susceptibility against temperature", run: runThermo},
-		{name: "magnetization", summary: "magnetization curves M(B), total and per site group, at several temperatures", run: runMagnetization},
+		{name: "spectrum", summary: "energy levels at one field", run: runTask(spectrumTask)},
+		{name: "thermo", summary: "energy, specific heat, entropy, magnetization and susceptibility against temperature", run: runTask(thermoTask)},
+		{name: "magnetization", summary: "magnetization curves M(B), total and per site group, at several temperatures", run: runTask(magnetizationTask)},
+		{name: "submit", summary: "start a task as a job on frustumd and print its name", run: runSubmit},
+		{name: "jobs", summary: "list your jobs on frustumd", run: runJobs},
+		{name: "job", summary: "show one job", run: runJob},
+		{name: "watch", summary: "follow a job's progress until it ends", run: runWatch},
+		{name: "cancel", summary: "cancel a queued or running job", run: runCancel},
+		{name: "delete", summary: "delete a job that has ended, and its result", run: runDelete},
 		{name: "demo", summary: "the defect-multimer scenario of an invented compound", run: runDemo},
 		{name: "version", summary: "the program version and the dense eigensolver backend", run: runVersion},
 	}
@@ -173,6 +193,9 @@ Commands:
 	}
 	fmt.Fprint(w, `
 Run "frustum COMMAND --help" for the flags of a command.
+
+The task commands run in-process, or as a job on frustumd with --server
+HOST:PORT; the job commands talk to frustumd (default 127.0.0.1:7447).
 
 Example:
   frustum demo

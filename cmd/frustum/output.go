@@ -18,10 +18,12 @@ import (
 	frustumv1 "frustum/proto/frustum/v1"
 )
 
-// table is a text table whose columns are right-aligned under their headers.
+// table is a text table whose columns are right-aligned under their headers
+// (left-aligned with left set, for columns of words).
 type table struct {
 	header []string
 	rows   [][]string
+	left   bool
 }
 
 func (t *table) add(cells ...string) { t.rows = append(t.rows, cells) }
@@ -38,6 +40,19 @@ func (t *table) write(w io.Writer) error {
 	}
 	var b strings.Builder
 	line := func(cells []string) {
+		if t.left {
+			var l strings.Builder
+			for i, c := range cells {
+				if i > 0 {
+					l.WriteString("  ")
+				}
+				l.WriteString(c)
+				l.WriteString(strings.Repeat(" ", width[i]-utf8.RuneCountInString(c)))
+			}
+			b.WriteString(strings.TrimRight(l.String(), " "))
+			b.WriteString("\n")
+			return
+		}
 		b.WriteString(" ")
 		for i, c := range cells {
 			b.WriteString("  ")
