@@ -2,7 +2,9 @@ package ed
 
 import (
 	"context"
+	"fmt"
 	"runtime"
+	"runtime/debug"
 	"sort"
 	"sync"
 
@@ -104,7 +106,7 @@ func parallel(ctx context.Context, jobs int, weight func(int) int, opt Options, 
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				err := do(i)
+				err := protect(i, do)
 				mu.Lock()
 				if err != nil && firstErr == nil {
 					firstErr = err
@@ -138,6 +140,25 @@ feed:
 		return firstErr
 	}
 	return ctx.Err()
+}
+
+// PanicError is a panic inside the engine's work, returned as an error so
+// that one failing task cannot bring down a process that runs many.
+type PanicError struct {
+	Value any
+	Stack string
+}
+
+func (e *PanicError) Error() string { return fmt.Sprintf("engine panic: %v", e.Value) }
+
+// protect runs do(i), turning a panic into a *PanicError.
+func protect(i int, do func(int) error) (err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = &PanicError{Value: r, Stack: string(debug.Stack())}
+		}
+	}()
+	return do(i)
 }
 
 // expectations returns <v_k|op|v_k> for every eigenvector k of the sector.

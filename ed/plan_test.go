@@ -71,3 +71,17 @@ func TestLimitRefusedBeforeWork(t *testing.T) {
 		t.Errorf("PlanThermo: got %v, want a *LimitError", err)
 	}
 }
+
+// A panic in a worker comes back as a *PanicError (common practice, no source).
+func TestParallelRecoversPanic(t *testing.T) {
+	err := parallel(context.Background(), 4, nil, Options{Workers: 2}, "test", func(i int) error {
+		if i == 2 {
+			panic("boom")
+		}
+		return nil
+	})
+	var pe *PanicError
+	if !errors.As(err, &pe) || pe.Value != "boom" {
+		t.Fatalf("got %v, want a *PanicError carrying \"boom\"", err)
+	}
+}

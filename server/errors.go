@@ -68,6 +68,7 @@ func taskCode(err error) (codes.Code, string) {
 	var le *ed.LimitError
 	var ne *ed.NumericalError
 	var pe *panicError
+	var epe *ed.PanicError
 	switch {
 	case err == nil:
 		return codes.OK, ""
@@ -81,7 +82,7 @@ func taskCode(err error) (codes.Code, string) {
 		return codes.DeadlineExceeded, "DEADLINE_EXCEEDED"
 	case errors.As(err, &ne):
 		return codes.Internal, "NUMERICAL_FAILURE"
-	case errors.As(err, &pe):
+	case errors.As(err, &pe), errors.As(err, &epe):
 		return codes.Internal, "ENGINE_PANIC"
 	}
 	return codes.Internal, "INTERNAL"
