@@ -13,47 +13,47 @@ import (
 // another user: the second user's job starts before the first user's
 // queue drains.
 func TestFairness(t *testing.T) {
-	tokens := writeTokens(t, map[string]string{"alice": "a-token", "bob": "b-token"})
+	tokens := writeTokens(t, map[string]string{"usera": "a-token", "userb": "b-token"})
 	f := &fakeTask{step: 20 * time.Millisecond, steps: 4}
 	ts := start(t, Config{Workers: 1, TokenFile: tokens}, func(s *Server) { s.runTask = f.run })
-	alice, bob := tctx(t, "a-token"), tctx(t, "b-token")
-	var aliceJobs []string
+	usera, userb := tctx(t, "a-token"), tctx(t, "b-token")
+	var useraJobs []string
 	for i := range 20 {
-		j, err := ts.client.CreateJob(alice, &frustumv1.CreateJobRequest{Spec: thermoSpec(float64(100 + i))})
+		j, err := ts.client.CreateJob(usera, &frustumv1.CreateJobRequest{Spec: thermoSpec(float64(100 + i))})
 		if err != nil {
 			t.Fatal(err)
 		}
-		aliceJobs = append(aliceJobs, j.GetName())
+		useraJobs = append(useraJobs, j.GetName())
 	}
 	startedBefore := len(f.started())
-	bobs, err := ts.client.CreateJob(bob, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
+	userbs, err := ts.client.CreateJob(userb, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if startedBefore > len(aliceJobs)-3 {
-		t.Fatalf("alice's queue nearly drained (%d started) before bob submitted: the test proves nothing", startedBefore)
+	if startedBefore > len(useraJobs)-3 {
+		t.Fatalf("usera's queue nearly drained (%d started) before userb submitted: the test proves nothing", startedBefore)
 	}
-	watchUntil(t, ts.client, bob, bobs.GetName())
+	watchUntil(t, ts.client, userb, userbs.GetName())
 	order := f.started()
-	// At bob's submission one of alice's jobs runs; at most one more of
-	// hers (the turn may be hers) starts before bob's.
+	// At userb's submission one of usera's jobs runs; at most one more of
+	// hers (the turn may be hers) starts before userb's.
 	pos := slices.Index(order, "dimer J=1")
 	if pos < 0 || pos > startedBefore+1 {
-		t.Errorf("bob's first job started as number %d of %q, with %d of alice's started when bob submitted", pos+1, order, startedBefore)
+		t.Errorf("userb's first job started as number %d of %q, with %d of usera's started when userb submitted", pos+1, order, startedBefore)
 	}
-	// Alice's own jobs keep their order.
-	for _, n := range aliceJobs {
-		watchUntil(t, ts.client, alice, n)
+	// Usera's own jobs keep their order.
+	for _, n := range useraJobs {
+		watchUntil(t, ts.client, usera, n)
 	}
-	var aliceOrder []string
+	var useraOrder []string
 	for _, n := range f.started() {
 		if n != "dimer J=1" {
-			aliceOrder = append(aliceOrder, n)
+			useraOrder = append(useraOrder, n)
 		}
 	}
-	for i, n := range aliceOrder {
+	for i, n := range useraOrder {
 		if want := fmt.Sprintf("dimer J=%d", 100+i); n != want {
-			t.Fatalf("alice's job %d started as %q, want %q (FIFO per user): %q", i, n, want, aliceOrder)
+			t.Fatalf("usera's job %d started as %q, want %q (FIFO per user): %q", i, n, want, useraOrder)
 		}
 	}
 }

@@ -27,19 +27,19 @@ import (
 )
 
 func TestAuth(t *testing.T) {
-	tokens := writeTokens(t, map[string]string{"alice": "alice-secret", "bob": "bob-secret"})
+	tokens := writeTokens(t, map[string]string{"usera": "usera-secret", "userb": "userb-secret"})
 	f := &fakeTask{step: 10 * time.Millisecond, steps: 3}
 	ts := start(t, Config{Workers: 1, TokenFile: tokens}, func(s *Server) { s.runTask = f.run })
-	alice, bob := tctx(t, "alice-secret"), tctx(t, "bob-secret")
+	usera, userb := tctx(t, "usera-secret"), tctx(t, "userb-secret")
 
-	job, err := ts.client.CreateJob(alice, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
+	job, err := ts.client.CreateJob(usera, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if job.GetOwner() != "alice" {
-		t.Errorf("owner %q, want alice", job.GetOwner())
+	if job.GetOwner() != "usera" {
+		t.Errorf("owner %q, want usera", job.GetOwner())
 	}
-	watchUntil(t, ts.client, alice, job.GetName())
+	watchUntil(t, ts.client, usera, job.GetName())
 	name := job.GetName()
 
 	// Without a token, or with an unknown one, nothing is reachable.
@@ -62,43 +62,43 @@ func TestAuth(t *testing.T) {
 	_, err = ts.client.ListJobs(metadata.AppendToOutgoingContext(ctx, "authorization", "Basic YWxpY2U6eA=="), &frustumv1.ListJobsRequest{})
 	wantCode(t, "Basic authorization", err, codes.Unauthenticated)
 
-	// Bob sees nothing of alice's.
-	resp, err := ts.client.ListJobs(bob, &frustumv1.ListJobsRequest{})
+	// Userb sees nothing of usera's.
+	resp, err := ts.client.ListJobs(userb, &frustumv1.ListJobsRequest{})
 	if err != nil || len(resp.GetJobs()) != 0 {
-		t.Errorf("bob lists %v, %v; want nothing", resp.GetJobs(), err)
+		t.Errorf("userb lists %v, %v; want nothing", resp.GetJobs(), err)
 	}
-	_, err = ts.client.GetJob(bob, &frustumv1.GetJobRequest{Name: name})
-	wantCode(t, "bob gets alice's job", err, codes.PermissionDenied)
-	_, err = ts.client.CancelJob(bob, &frustumv1.CancelJobRequest{Name: name})
-	wantCode(t, "bob cancels alice's job", err, codes.PermissionDenied)
-	_, err = ts.client.DeleteJob(bob, &frustumv1.DeleteJobRequest{Name: name})
-	wantCode(t, "bob deletes alice's job", err, codes.PermissionDenied)
-	stream, err := ts.client.WatchJob(bob, &frustumv1.WatchJobRequest{Name: name})
+	_, err = ts.client.GetJob(userb, &frustumv1.GetJobRequest{Name: name})
+	wantCode(t, "userb gets usera's job", err, codes.PermissionDenied)
+	_, err = ts.client.CancelJob(userb, &frustumv1.CancelJobRequest{Name: name})
+	wantCode(t, "userb cancels usera's job", err, codes.PermissionDenied)
+	_, err = ts.client.DeleteJob(userb, &frustumv1.DeleteJobRequest{Name: name})
+	wantCode(t, "userb deletes usera's job", err, codes.PermissionDenied)
+	stream, err := ts.client.WatchJob(userb, &frustumv1.WatchJobRequest{Name: name})
 	if err == nil {
 		_, err = stream.Recv()
 	}
-	wantCode(t, "bob watches alice's job", err, codes.PermissionDenied)
-	rstream, err := ts.client.GetJobResult(bob, &frustumv1.GetJobResultRequest{Name: name})
+	wantCode(t, "userb watches usera's job", err, codes.PermissionDenied)
+	rstream, err := ts.client.GetJobResult(userb, &frustumv1.GetJobResultRequest{Name: name})
 	if err == nil {
 		_, err = rstream.Recv()
 	}
-	wantCode(t, "bob fetches alice's result", err, codes.PermissionDenied)
-	_, err = ts.client.GetJob(bob, &frustumv1.GetJobRequest{Name: "jobs/0123456789abcdef01234567"})
-	wantCode(t, "bob gets a job that does not exist", err, codes.NotFound)
+	wantCode(t, "userb fetches usera's result", err, codes.PermissionDenied)
+	_, err = ts.client.GetJob(userb, &frustumv1.GetJobRequest{Name: "jobs/0123456789abcdef01234567"})
+	wantCode(t, "userb gets a job that does not exist", err, codes.NotFound)
 
-	// Bob's identical spec is not answered from alice's result.
-	bobs, err := ts.client.CreateJob(bob, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
-	if err != nil || bobs.GetFromCache() || bobs.GetOwner() != "bob" {
-		t.Errorf("bob's identical spec: %v, %v", bobs, err)
+	// Userb's identical spec is not answered from usera's result.
+	userbs, err := ts.client.CreateJob(userb, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
+	if err != nil || userbs.GetFromCache() || userbs.GetOwner() != "userb" {
+		t.Errorf("userb's identical spec: %v, %v", userbs, err)
 	}
-	// And alice's is.
-	again, err := ts.client.CreateJob(alice, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
+	// And usera's is.
+	again, err := ts.client.CreateJob(usera, &frustumv1.CreateJobRequest{Spec: thermoSpec(1)})
 	if err != nil || !again.GetFromCache() {
-		t.Errorf("alice's identical spec: %v, %v", again, err)
+		t.Errorf("usera's identical spec: %v, %v", again, err)
 	}
 	// The same request id of two users makes two jobs.
-	a1, err1 := ts.client.CreateJob(alice, &frustumv1.CreateJobRequest{Spec: thermoSpec(3), RequestId: "same"})
-	b1, err2 := ts.client.CreateJob(bob, &frustumv1.CreateJobRequest{Spec: thermoSpec(3), RequestId: "same"})
+	a1, err1 := ts.client.CreateJob(usera, &frustumv1.CreateJobRequest{Spec: thermoSpec(3), RequestId: "same"})
+	b1, err2 := ts.client.CreateJob(userb, &frustumv1.CreateJobRequest{Spec: thermoSpec(3), RequestId: "same"})
 	if err1 != nil || err2 != nil || a1.GetName() == b1.GetName() {
 		t.Errorf("one request id, two users: %v %v, %v %v", a1.GetName(), err1, b1.GetName(), err2)
 	}
@@ -136,7 +136,7 @@ func TestAuth(t *testing.T) {
 // and tokens, and that New refuses before it opens or binds anything.
 func TestRefuseInsecure(t *testing.T) {
 	certFile, keyFile, _ := writeCert(t)
-	tokens := writeTokens(t, map[string]string{"alice": "a"})
+	tokens := writeTokens(t, map[string]string{"usera": "a"})
 	for _, tc := range []struct {
 		name string
 		cfg  Config
@@ -187,12 +187,12 @@ func TestTokenFile(t *testing.T) {
 	for _, tc := range []struct {
 		name, text, want string
 	}{
-		{"one field", "alice\n", ":1: want two fields"},
-		{"three fields", "# users\n\nalice " + HashToken("x") + " extra\n", ":3: want two fields"},
-		{"short hash", "alice abcd\n", ":1: the hash of user \"alice\" has 4 characters"},
-		{"not hex", "alice " + strings.Repeat("zz", 32) + "\n", ":1: the hash of user \"alice\" is not hex"},
-		{"user twice", "alice " + HashToken("x") + "\nalice " + HashToken("y") + "\n", ":2: user \"alice\" is listed twice"},
-		{"token twice", "alice " + HashToken("x") + "\nbob " + HashToken("x") + "\n", ":2: user \"bob\" has the same token"},
+		{"one field", "usera\n", ":1: want two fields"},
+		{"three fields", "# users\n\nusera " + HashToken("x") + " extra\n", ":3: want two fields"},
+		{"short hash", "usera abcd\n", ":1: the hash of user \"usera\" has 4 characters"},
+		{"not hex", "usera " + strings.Repeat("zz", 32) + "\n", ":1: the hash of user \"usera\" is not hex"},
+		{"user twice", "usera " + HashToken("x") + "\nusera " + HashToken("y") + "\n", ":2: user \"usera\" is listed twice"},
+		{"token twice", "usera " + HashToken("x") + "\nuserb " + HashToken("x") + "\n", ":2: user \"userb\" has the same token"},
 		{"empty", "# nobody\n", "lists no users"},
 	} {
 		path := filepath.Join(t.TempDir(), "tokens")
@@ -202,7 +202,7 @@ func TestTokenFile(t *testing.T) {
 			t.Errorf("%s: New: %v, want an error naming %s and %q", tc.name, err, path, tc.want)
 		}
 	}
-	tok, err := ParseTokens(strings.NewReader("  # comment\nalice "+strings.ToUpper(HashToken("s3cret"))+"\n\n"), "t")
+	tok, err := ParseTokens(strings.NewReader("  # comment\nusera "+strings.ToUpper(HashToken("s3cret"))+"\n\n"), "t")
 	if err != nil || len(tok) != 1 {
 		t.Fatalf("ParseTokens: %v, %v", tok, err)
 	}
@@ -216,14 +216,14 @@ func TestTokenFile(t *testing.T) {
 // interface, and calls it over TLS with a token.
 func TestTLS(t *testing.T) {
 	certFile, keyFile, pool := writeCert(t)
-	tokens := writeTokens(t, map[string]string{"alice": "alice-secret"})
+	tokens := writeTokens(t, map[string]string{"usera": "usera-secret"})
 	s, err := New(Config{Listen: "0.0.0.0:0", DataDir: t.TempDir(), Workers: 1, TLSCert: certFile, TLSKey: keyFile, TokenFile: tokens}, testLogger(t))
 	if err != nil {
 		t.Fatal(err)
 	}
 	creds := credentials.NewTLS(&tls.Config{RootCAs: pool, ServerName: "127.0.0.1", MinVersion: tls.VersionTLS12})
 	ts := serveOn(t, s, []grpc.DialOption{grpc.WithTransportCredentials(creds)})
-	ctx := tctx(t, "alice-secret")
+	ctx := tctx(t, "usera-secret")
 	job, err := ts.client.CreateJob(ctx, &frustumv1.CreateJobRequest{Spec: thermoSpec(4)})
 	if err != nil {
 		t.Fatalf("CreateJob over TLS: %v", err)

@@ -29,8 +29,8 @@
 //
 // Example:
 //
-//	head -c 16 /dev/urandom | od -An -tx1 | tr -d ' \n' > alice.token   # give alice this token
-//	echo "alice $(frustumd hash-token < alice.token)" > tokens
+//	head -c 16 /dev/urandom | od -An -tx1 | tr -d ' \n' > usera.token   # give usera this token
+//	echo "usera $(frustumd hash-token < usera.token)" > tokens
 //	frustumd --listen 0.0.0.0:7447 --tls-cert cert.pem --tls-key key.pem --tokens tokens
 package main
 

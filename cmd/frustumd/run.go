@@ -37,7 +37,7 @@ the user's token, as printed by "frustumd hash-token".
 
 Example:
   frustumd --listen 127.0.0.1:7447 --data /var/lib/frustum --workers 2 --max-memory 8GiB
-  echo "alice $(frustumd hash-token < alice.token)" >> tokens
+  echo "usera $(frustumd hash-token < usera.token)" >> tokens
   frustumd --listen 0.0.0.0:7447 --tls-cert cert.pem --tls-key key.pem --tokens tokens
 `
 
@@ -169,7 +169,7 @@ func defaultDataDir() string {
 func hashToken(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 	if len(args) > 0 {
 		if args[0] == "-h" || args[0] == "--help" || args[0] == "-help" {
-			fmt.Fprint(stderr, "usage: frustumd hash-token < TOKEN\n\nPrints the hex SHA-256 of the token on standard input (its first line),\nfor a line \"NAME HASH\" of the token file.\n\nExample:\n  echo \"alice $(frustumd hash-token < alice.token)\" >> tokens\n")
+			fmt.Fprint(stderr, "usage: frustumd hash-token < TOKEN\n\nPrints the hex SHA-256 of the token on standard input (its first line),\nfor a line \"NAME HASH\" of the token file.\n\nExample:\n  echo \"usera $(frustumd hash-token < usera.token)\" >> tokens\n")
 			return 0
 		}
 		fmt.Fprintln(stderr, "frustumd hash-token: takes no arguments; give the token on standard input")

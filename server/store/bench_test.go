@@ -11,7 +11,7 @@ import (
 // transition (create, start, progress stored, result, cancel) pays.
 func BenchmarkCreate(b *testing.B) {
 	s, _ := openTemp(b)
-	job := queued("alice", "")
+	job := queued("usera", "")
 	for b.Loop() {
 		if _, _, err := s.Create(job); err != nil {
 			b.Fatal(err)
@@ -24,7 +24,7 @@ func BenchmarkCreate(b *testing.B) {
 func BenchmarkCreateParallel(b *testing.B) {
 	s, _ := openTemp(b)
 	b.RunParallel(func(pb *testing.PB) {
-		job := queued("alice", "")
+		job := queued("usera", "")
 		for pb.Next() {
 			if _, _, err := s.Create(job); err != nil {
 				b.Error(err)
@@ -37,7 +37,7 @@ func BenchmarkCreateParallel(b *testing.B) {
 // BenchmarkUpdate is one state transition of a stored job.
 func BenchmarkUpdate(b *testing.B) {
 	s, _ := openTemp(b)
-	job := mustCreate(b, s, queued("alice", ""))
+	job := mustCreate(b, s, queued("usera", ""))
 	for b.Loop() {
 		if _, err := s.Update(job.Name, func(j *frustumv1.Job) error {
 			j.Attempts++
@@ -51,7 +51,7 @@ func BenchmarkUpdate(b *testing.B) {
 // BenchmarkGet is one read of a job (no fsync).
 func BenchmarkGet(b *testing.B) {
 	s, _ := openTemp(b)
-	job := mustCreate(b, s, queued("alice", ""))
+	job := mustCreate(b, s, queued("usera", ""))
 	for b.Loop() {
 		if _, err := s.Get(job.Name); err != nil {
 			b.Fatal(err)

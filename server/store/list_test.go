@@ -51,41 +51,41 @@ func listAll(t *testing.T, s *Store, owner string, state frustumv1.Job_State, pa
 // with and without a state filter; other owners' jobs never appear.
 func TestListPaging(t *testing.T) {
 	s, _ := openTemp(t)
-	var alice, running []string // in creation order
-	owners := []string{"alice", "bob", "alice ", "alicea", ""}
+	var usera, running []string // in creation order
+	owners := []string{"usera", "userb", "usera ", "useraa", ""}
 	for i := range 23 {
-		j := mustCreate(t, s, queued("alice", ""))
+		j := mustCreate(t, s, queued("usera", ""))
 		if i%3 == 1 {
 			setState(t, s, j.Name, frustumv1.Job_RUNNING, time.Time{})
 			running = append(running, j.Name)
 		}
-		alice = append(alice, j.Name)
-		// Owners whose names share bytes with "alice", interleaved.
+		usera = append(usera, j.Name)
+		// Owners whose names share bytes with "usera", interleaved.
 		mustCreate(t, s, queued(owners[1+i%4], ""))
 	}
 	newestFirst := func(n []string) []string { r := slices.Clone(n); slices.Reverse(r); return r }
 
 	for _, size := range []int{1, 5, 23, 24, 1000} {
-		got, pages := listAll(t, s, "alice", 0, size)
-		if !slices.Equal(got, newestFirst(alice)) {
-			t.Errorf("page size %d: listed\n %v\nwant\n %v", size, got, newestFirst(alice))
+		got, pages := listAll(t, s, "usera", 0, size)
+		if !slices.Equal(got, newestFirst(usera)) {
+			t.Errorf("page size %d: listed\n %v\nwant\n %v", size, got, newestFirst(usera))
 		}
 		if want := (23 + size - 1) / size; pages != want {
 			t.Errorf("page size %d: %d pages, want %d", size, pages, want)
 		}
 	}
 	for _, size := range []int{1, 3, 7, 8} {
-		got, _ := listAll(t, s, "alice", frustumv1.Job_RUNNING, size)
+		got, _ := listAll(t, s, "usera", frustumv1.Job_RUNNING, size)
 		if !slices.Equal(got, newestFirst(running)) {
 			t.Errorf("RUNNING, page size %d: listed %v, want %v", size, got, newestFirst(running))
 		}
 	}
-	if got, _ := listAll(t, s, "alice", frustumv1.Job_SUCCEEDED, 5); len(got) != 0 {
+	if got, _ := listAll(t, s, "usera", frustumv1.Job_SUCCEEDED, 5); len(got) != 0 {
 		t.Errorf("SUCCEEDED: listed %v", got)
 	}
 	// Page size 0 or less means 50; above 1000 means 1000.
 	for _, size := range []int{0, -3, 5000} {
-		jobs, next, err := s.List("alice", 0, size, "")
+		jobs, next, err := s.List("usera", 0, size, "")
 		if err != nil || len(jobs) != 23 || next != "" {
 			t.Errorf("page size %d: %d jobs, next %q, %v", size, len(jobs), next, err)
 		}
@@ -99,18 +99,18 @@ func TestListPaging(t *testing.T) {
 
 	// A deleted job, even the one a token points after, does not disturb
 	// paging.
-	page1, next, err := s.List("alice", 0, 5, "")
+	page1, next, err := s.List("usera", 0, 5, "")
 	if err != nil {
 		t.Fatal(err)
 	}
 	if err := s.Delete(page1[4].Name); err != nil {
 		t.Fatal(err)
 	}
-	page2, _, err := s.List("alice", 0, 5, next)
+	page2, _, err := s.List("usera", 0, 5, next)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want := newestFirst(alice)[5:10]; !slices.Equal(names(page2), want) {
+	if want := newestFirst(usera)[5:10]; !slices.Equal(names(page2), want) {
 		t.Errorf("after deleting the token's job: page 2 = %v, want %v", names(page2), want)
 	}
 }
@@ -120,9 +120,9 @@ func TestListPaging(t *testing.T) {
 func TestListBadPageToken(t *testing.T) {
 	s, _ := openTemp(t)
 	for range 3 {
-		mustCreate(t, s, queued("alice", ""))
+		mustCreate(t, s, queued("usera", ""))
 	}
-	_, next, err := s.List("alice", 0, 1, "")
+	_, next, err := s.List("usera", 0, 1, "")
 	if err != nil || next == "" {
 		t.Fatalf("first page: next %q, %v", next, err)
 	}
@@ -135,16 +135,16 @@ func TestListBadPageToken(t *testing.T) {
 		"wrong version":  base64.RawURLEncoding.EncodeToString(append([]byte{9}, raw[1:]...)),
 		"a job name":     "jobs/000000000000000000000000",
 	} {
-		if _, _, err := s.List("alice", 0, 1, token); !errors.Is(err, ErrBadPageToken) {
+		if _, _, err := s.List("usera", 0, 1, token); !errors.Is(err, ErrBadPageToken) {
 			t.Errorf("%s token %q: %v, want ErrBadPageToken", name, token, err)
 		}
 	}
-	if _, _, err := s.List("alice", frustumv1.Job_QUEUED, 1, next); !errors.Is(err, ErrBadPageToken) {
+	if _, _, err := s.List("usera", frustumv1.Job_QUEUED, 1, next); !errors.Is(err, ErrBadPageToken) {
 		t.Errorf("token of the unfiltered list used with a state filter: %v, want ErrBadPageToken", err)
 	}
-	// A good token of alice's gives bob nothing of alice's.
-	if jobs, _, err := s.List("bob", 0, 10, next); err != nil || len(jobs) != 0 {
-		t.Errorf("bob with alice's token: %v, %v", names(jobs), err)
+	// A good token of usera's gives userb nothing of usera's.
+	if jobs, _, err := s.List("userb", 0, 10, next); err != nil || len(jobs) != 0 {
+		t.Errorf("userb with usera's token: %v, %v", names(jobs), err)
 	}
 }
 
@@ -169,7 +169,7 @@ func TestDeleteFinishedBefore(t *testing.T) {
 	}
 	var jobs []*frustumv1.Job
 	for i, c := range cases {
-		j := mustCreate(t, s, queued("alice", string(rune('a'+i))))
+		j := mustCreate(t, s, queued("usera", string(rune('a'+i))))
 		j, err := s.SetResult(j.Name, "frustum.v1.SpectrumResult", []byte{byte(i)}, func(j *frustumv1.Job) error {
 			j.SpecHash = "h"
 			return nil
@@ -196,16 +196,16 @@ func TestDeleteFinishedBefore(t *testing.T) {
 			t.Errorf("case %d (%v): Get %v, Result %v, want it kept", i, c.state, err, rerr)
 		}
 	}
-	if got, _ := listAll(t, s, "alice", 0, 100); len(got) != 5 {
+	if got, _ := listAll(t, s, "usera", 0, 100); len(got) != 5 {
 		t.Errorf("List after retention: %d jobs, want 5", len(got))
 	}
 	// The newest surviving SUCCEEDED job with an end time is case 5 (no end
 	// time, newer than case 3).
-	if j, ok, _ := s.FindSucceeded("alice", "h"); !ok || j.Name != jobs[5].Name {
+	if j, ok, _ := s.FindSucceeded("usera", "h"); !ok || j.Name != jobs[5].Name {
 		t.Errorf("FindSucceeded after retention: %v %v, want %s", j, ok, jobs[5].Name)
 	}
 	// Request ids of removed jobs are free again.
-	if _, created, err := s.Create(queued("alice", "a")); err != nil || !created {
+	if _, created, err := s.Create(queued("usera", "a")); err != nil || !created {
 		t.Errorf("request id of a removed job: created %v, %v", created, err)
 	}
 	if n, err := s.DeleteFinishedBefore(now.Add(-time.Hour)); err != nil || n != 0 {

@@ -29,12 +29,12 @@ func TestSetResultAndFindSucceeded(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	older := mustCreate(t, s, queued("alice", ""))
-	newer := mustCreate(t, s, queued("alice", ""))
-	failed := mustCreate(t, s, queued("alice", ""))
-	bobs := mustCreate(t, s, queued("bob", ""))
+	older := mustCreate(t, s, queued("usera", ""))
+	newer := mustCreate(t, s, queued("usera", ""))
+	failed := mustCreate(t, s, queued("usera", ""))
+	userbs := mustCreate(t, s, queued("userb", ""))
 
-	if _, ok, err := s.FindSucceeded("alice", "h1"); ok || err != nil {
+	if _, ok, err := s.FindSucceeded("usera", "h1"); ok || err != nil {
 		t.Errorf("FindSucceeded before any result: %v, %v", ok, err)
 	}
 	j, err := s.SetResult(older.Name, "frustum.v1.SpectrumResult", result, succeed("h1"))
@@ -65,7 +65,7 @@ func TestSetResultAndFindSucceeded(t *testing.T) {
 	}); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := s.SetResult(bobs.Name, "frustum.v1.SpectrumResult", result, succeed("h1")); err != nil {
+	if _, err := s.SetResult(userbs.Name, "frustum.v1.SpectrumResult", result, succeed("h1")); err != nil {
 		t.Fatal(err)
 	}
 
@@ -83,13 +83,13 @@ func TestSetResultAndFindSucceeded(t *testing.T) {
 		}
 		return j.Name
 	}
-	if got := find("alice", "h1"); got != newer.Name {
+	if got := find("usera", "h1"); got != newer.Name {
 		t.Errorf("FindSucceeded = %q, want the newer job %s", got, newer.Name)
 	}
-	if got := find("bob", "h1"); got != bobs.Name {
-		t.Errorf("bob: FindSucceeded = %q, want %s", got, bobs.Name)
+	if got := find("userb", "h1"); got != userbs.Name {
+		t.Errorf("userb: FindSucceeded = %q, want %s", got, userbs.Name)
 	}
-	for _, c := range [][2]string{{"alice", "h2"}, {"alice", ""}, {"carol", "h1"}, {"alice\x00", "h1"}} {
+	for _, c := range [][2]string{{"usera", "h2"}, {"usera", ""}, {"userc", "h1"}, {"usera\x00", "h1"}} {
 		if got := find(c[0], c[1]); got != "" {
 			t.Errorf("FindSucceeded(%q, %q) = %s, want none", c[0], c[1], got)
 		}
@@ -97,23 +97,23 @@ func TestSetResultAndFindSucceeded(t *testing.T) {
 	if err := s.Delete(newer.Name); err != nil {
 		t.Fatal(err)
 	}
-	if got := find("alice", "h1"); got != older.Name {
+	if got := find("usera", "h1"); got != older.Name {
 		t.Errorf("after deleting the newer: FindSucceeded = %q, want %s", got, older.Name)
 	}
 	if err := s.Delete(older.Name); err != nil {
 		t.Fatal(err)
 	}
-	if got := find("alice", "h1"); got != "" {
+	if got := find("usera", "h1"); got != "" {
 		t.Errorf("after deleting both: FindSucceeded = %q, want none", got)
 	}
 	if _, _, err := s.Result(older.Name); err != ErrNotFound {
 		t.Errorf("Result after Delete: %v, want ErrNotFound", err)
 	}
 	// Changing a job's spec hash moves its spec index entry.
-	if _, err := s.Update(bobs.Name, func(j *frustumv1.Job) error { j.SpecHash = "h3"; return nil }); err != nil {
+	if _, err := s.Update(userbs.Name, func(j *frustumv1.Job) error { j.SpecHash = "h3"; return nil }); err != nil {
 		t.Fatal(err)
 	}
-	if find("bob", "h1") != "" || find("bob", "h3") != bobs.Name {
+	if find("userb", "h1") != "" || find("userb", "h3") != userbs.Name {
 		t.Errorf("spec hash change not indexed")
 	}
 }
@@ -123,7 +123,7 @@ func TestSetResultAndFindSucceeded(t *testing.T) {
 // SUCCEEDED without its result, nor has a result it did not accept).
 func TestSetResultAtomic(t *testing.T) {
 	s, _ := openTemp(t)
-	job := mustCreate(t, s, queued("alice", ""))
+	job := mustCreate(t, s, queued("usera", ""))
 	errLate := errors.New("cancelled meanwhile")
 	if _, err := s.SetResult(job.Name, "frustum.v1.SpectrumResult", []byte("x"), func(j *frustumv1.Job) error {
 		j.State = frustumv1.Job_SUCCEEDED
@@ -132,7 +132,7 @@ func TestSetResultAtomic(t *testing.T) {
 		t.Errorf("SetResult returned %v, want fn's error itself", err)
 	}
 	if _, err := s.SetResult(job.Name, "frustum.v1.SpectrumResult", []byte("x"), func(j *frustumv1.Job) error {
-		j.Owner = "mallory"
+		j.Owner = "userm"
 		return nil
 	}); err == nil {
 		t.Error("SetResult changing the owner: no error")
@@ -146,7 +146,7 @@ func TestSetResultAtomic(t *testing.T) {
 	if got, _ := s.Get(job.Name); !proto.Equal(got, job) {
 		t.Errorf("job changed by failed SetResults: %v", got)
 	}
-	if _, ok, _ := s.FindSucceeded("alice", "h"); ok {
+	if _, ok, _ := s.FindSucceeded("usera", "h"); ok {
 		t.Error("FindSucceeded found a job whose SetResult failed")
 	}
 	// An empty result is a result.
@@ -163,7 +163,7 @@ func TestSetResultAtomic(t *testing.T) {
 func TestCreateWithInlineResult(t *testing.T) {
 	s, _ := openTemp(t)
 	res := &frustumv1.ThermoResult{ClusterName: "dimer", Temperature: []float64{1, 2}}
-	in := queued("alice", "")
+	in := queued("usera", "")
 	in.State, in.SpecHash, in.FromCache = frustumv1.Job_SUCCEEDED, "h", true
 	in.Result = &frustumv1.Job_ThermoResult{ThermoResult: res}
 	job := mustCreate(t, s, in)
@@ -181,7 +181,7 @@ func TestCreateWithInlineResult(t *testing.T) {
 	if err := proto.Unmarshal(data, got); err != nil || !proto.Equal(got, res) {
 		t.Errorf("stored result %v (%v), want %v", got, err, res)
 	}
-	if j, ok, _ := s.FindSucceeded("alice", "h"); !ok || j.Name != job.Name {
+	if j, ok, _ := s.FindSucceeded("usera", "h"); !ok || j.Name != job.Name {
 		t.Errorf("FindSucceeded: %v, %v", j, ok)
 	}
 }

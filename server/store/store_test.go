@@ -26,7 +26,7 @@ var nameRE = regexp.MustCompile(`^jobs/[0-9a-f]{24}$`)
 // Update stored, Get returns; after Delete, the job is gone everywhere.
 func TestCreateGetUpdateDelete(t *testing.T) {
 	s, path := openTemp(t)
-	in := queued("alice", "")
+	in := queued("usera", "")
 	before := time.Now()
 	job := mustCreate(t, s, in)
 	if in.Name != "" {
@@ -86,7 +86,7 @@ func TestCreateGetUpdateDelete(t *testing.T) {
 	if _, err := s.Update(job.Name, func(*frustumv1.Job) error { return nil }); err != ErrNotFound {
 		t.Errorf("Update after Delete: %v, want ErrNotFound", err)
 	}
-	if jobs, _, _ := s.List("alice", 0, 0, ""); len(jobs) != 0 {
+	if jobs, _, _ := s.List("usera", 0, 0, ""); len(jobs) != 0 {
 		t.Errorf("List after Delete: %v", names(jobs))
 	}
 
@@ -102,7 +102,7 @@ func TestCreateGetUpdateDelete(t *testing.T) {
 // (invariant, no source): the name comes from the user.
 func TestMalformedNamesNotFound(t *testing.T) {
 	s, _ := openTemp(t)
-	job := mustCreate(t, s, queued("alice", ""))
+	job := mustCreate(t, s, queued("usera", ""))
 	id := strings.TrimPrefix(job.Name, "jobs/")
 	for _, name := range []string{
 		"", "jobs/", "jobs", id, "job/" + id, "jobs/" + strings.ToUpper(id),
@@ -134,9 +134,9 @@ func TestMalformedNamesNotFound(t *testing.T) {
 // retried create idempotent (per user)").
 func TestRequestIDIdempotent(t *testing.T) {
 	s, _ := openTemp(t)
-	first := mustCreate(t, s, queued("alice", "req-1"))
+	first := mustCreate(t, s, queued("usera", "req-1"))
 
-	retry := queued("alice", "req-1")
+	retry := queued("usera", "req-1")
 	retry.Spec = dimerSpec(99) // a retry returns the first job, whatever it says
 	again, created, err := s.Create(retry)
 	if err != nil || created {
@@ -147,13 +147,13 @@ func TestRequestIDIdempotent(t *testing.T) {
 	}
 
 	// The same request id of another owner is another job.
-	bob := mustCreate(t, s, queued("bob", "req-1"))
-	if bob.Name == first.Name {
-		t.Errorf("bob's request req-1 returned alice's job")
+	userb := mustCreate(t, s, queued("userb", "req-1"))
+	if userb.Name == first.Name {
+		t.Errorf("userb's request req-1 returned usera's job")
 	}
 	// Without a request id every Create is new.
-	a := mustCreate(t, s, queued("alice", ""))
-	b := mustCreate(t, s, queued("alice", ""))
+	a := mustCreate(t, s, queued("usera", ""))
+	b := mustCreate(t, s, queued("usera", ""))
 	if a.Name == b.Name {
 		t.Errorf("two creates without request id gave one job")
 	}
@@ -167,7 +167,7 @@ func TestRequestIDIdempotent(t *testing.T) {
 	createdCount := make([]bool, 10)
 	for i := range results {
 		wg.Go(func() {
-			j, c, err := s.Create(queued("carol", "req-2"))
+			j, c, err := s.Create(queued("userc", "req-2"))
 			if err != nil {
 				t.Error(err)
 				return
@@ -193,7 +193,7 @@ func TestRequestIDIdempotent(t *testing.T) {
 	if err := s.Delete(first.Name); err != nil {
 		t.Fatal(err)
 	}
-	if fresh := mustCreate(t, s, queued("alice", "req-1")); fresh.Name == first.Name {
+	if fresh := mustCreate(t, s, queued("usera", "req-1")); fresh.Name == first.Name {
 		t.Errorf("create after delete returned the deleted job")
 	}
 }
@@ -209,7 +209,7 @@ func TestConcurrentCreateUniqueSortedIDs(t *testing.T) {
 	for w := range workers {
 		wg.Go(func() {
 			for range perWorker {
-				job, created, err := s.Create(queued("alice", ""))
+				job, created, err := s.Create(queued("usera", ""))
 				if err != nil || !created {
 					t.Errorf("Create: created %v, err %v", created, err)
 					return
@@ -238,7 +238,7 @@ func TestConcurrentCreateUniqueSortedIDs(t *testing.T) {
 	var listed []string
 	token := ""
 	for {
-		jobs, next, err := s.List("alice", 0, 77, token)
+		jobs, next, err := s.List("usera", 0, 77, token)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -276,7 +276,7 @@ func TestIDsRiseAcrossReopen(t *testing.T) {
 			t.Fatal(err)
 		}
 		for range 5 {
-			j := mustCreate(t, s, queued("alice", ""))
+			j := mustCreate(t, s, queued("usera", ""))
 			if j.Name <= last {
 				t.Errorf("round %d: %s after %s", round, j.Name, last)
 			}
@@ -300,7 +300,7 @@ func TestIDsRiseWhenClockStepsBack(t *testing.T) {
 	var last string
 	check := func(what string) {
 		t.Helper()
-		j := mustCreate(t, s, queued("alice", ""))
+		j := mustCreate(t, s, queued("usera", ""))
 		// The time parts ("jobs/" + 16 hex) rise, not only the names.
 		if last != "" && j.Name[:21] <= last[:21] {
 			t.Errorf("%s: %s after %s", what, j.Name, last)
@@ -331,9 +331,9 @@ func TestIDsRiseWhenClockStepsBack(t *testing.T) {
 // unchanged, storing nothing (the brief; invariant).
 func TestUpdateRefuses(t *testing.T) {
 	s, _ := openTemp(t)
-	job := mustCreate(t, s, queued("alice", "r"))
+	job := mustCreate(t, s, queued("usera", "r"))
 	for what, fn := range map[string]func(*frustumv1.Job) error{
-		"owner":      func(j *frustumv1.Job) error { j.Owner = "mallory"; j.State = frustumv1.Job_RUNNING; return nil },
+		"owner":      func(j *frustumv1.Job) error { j.Owner = "userm"; j.State = frustumv1.Job_RUNNING; return nil },
 		"name":       func(j *frustumv1.Job) error { j.Name = "jobs/000000000000000000000000"; return nil },
 		"request id": func(j *frustumv1.Job) error { j.RequestId = "other"; return nil },
 		"result": func(j *frustumv1.Job) error {
@@ -361,8 +361,8 @@ func TestUpdateRefuses(t *testing.T) {
 	if !proto.Equal(got, job) {
 		t.Errorf("a refused Update changed the job:\n got %v\nwant %v", got, job)
 	}
-	if jobs, _, _ := s.List("mallory", 0, 0, ""); len(jobs) != 0 {
-		t.Errorf("mallory lists %v", names(jobs))
+	if jobs, _, _ := s.List("userm", 0, 0, ""); len(jobs) != 0 {
+		t.Errorf("userm lists %v", names(jobs))
 	}
 }
 
@@ -370,7 +370,7 @@ func TestUpdateRefuses(t *testing.T) {
 // (owner+"\x00"+id) apart from other owners.
 func TestCreateRefusesNULOwner(t *testing.T) {
 	s, _ := openTemp(t)
-	if _, _, err := s.Create(queued("alice\x00bob", "")); err == nil {
+	if _, _, err := s.Create(queued("usera\x00userb", "")); err == nil {
 		t.Error("Create with a NUL in the owner: no error")
 	}
 	if _, _, err := s.Create(nil); err == nil {
@@ -394,7 +394,7 @@ func TestReopenFindsEverything(t *testing.T) {
 		frustumv1.Job_FAILED, frustumv1.Job_CANCELLED, frustumv1.Job_QUEUED, frustumv1.Job_RUNNING,
 	}
 	for i, st := range states {
-		owner := []string{"alice", "bob"}[i%2]
+		owner := []string{"usera", "userb"}[i%2]
 		j := mustCreate(t, s, queued(owner, fmt.Sprint("req-", i)))
 		if st == frustumv1.Job_SUCCEEDED {
 			j, err = s.SetResult(j.Name, "frustum.v1.SpectrumResult", []byte("result bytes"), func(j *frustumv1.Job) error {
@@ -443,10 +443,10 @@ func TestReopenFindsEverything(t *testing.T) {
 	if typ, data, err := s.Result(want[2].Name); err != nil || typ != "frustum.v1.SpectrumResult" || string(data) != "result bytes" {
 		t.Errorf("Result after reopen: %q %q %v", typ, data, err)
 	}
-	if j, ok, err := s.FindSucceeded("alice", "hash"); err != nil || !ok || j.Name != want[2].Name {
+	if j, ok, err := s.FindSucceeded("usera", "hash"); err != nil || !ok || j.Name != want[2].Name {
 		t.Errorf("FindSucceeded after reopen: %v %v %v", j, ok, err)
 	}
-	if j, created, err := s.Create(queued("alice", "req-0")); err != nil || created || j.Name != want[0].Name {
+	if j, created, err := s.Create(queued("usera", "req-0")); err != nil || created || j.Name != want[0].Name {
 		t.Errorf("request id after reopen: %v %v %v", j, created, err)
 	}
 	checkIndexes(t, s)
@@ -479,9 +479,9 @@ func TestStats(t *testing.T) {
 		t.Errorf("empty store: %v, %v", n, err)
 	}
 	for range 3 {
-		mustCreate(t, s, queued("alice", ""))
+		mustCreate(t, s, queued("usera", ""))
 	}
-	j := mustCreate(t, s, queued("bob", ""))
+	j := mustCreate(t, s, queued("userb", ""))
 	setState(t, s, j.Name, frustumv1.Job_FAILED, time.Now())
 	n, err := s.Stats()
 	if err != nil {
