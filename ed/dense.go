@@ -53,20 +53,24 @@ func denseComplex(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator)
 	return a
 }
 
-// diagonalize builds op in sec and diagonalizes it densely.
-func diagonalize(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool) (*sectorSpectrum, error) {
+// diagonalize builds op in sec and diagonalizes it densely; it stops early
+// with ctx.Err() when ctx is done, also inside the dense solver.
+func diagonalize(ctx context.Context, sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool) (*sectorSpectrum, error) {
 	n := sec.dim()
 	out := &sectorSpectrum{sector: sec}
-	var ok bool
+	var err error
 	if real {
-		out.values, out.vecsR, ok = eigen.Symmetric(denseReal(sys, bs, sec, op), n, vectors)
+		out.values, out.vecsR, err = eigen.SymmetricContext(ctx, denseReal(sys, bs, sec, op), n, vectors)
 	} else {
-		out.values, out.vecsC, ok = eigen.Hermitian(denseComplex(sys, bs, sec, op), n, vectors)
+		out.values, out.vecsC, err = eigen.HermitianContext(ctx, denseComplex(sys, bs, sec, op), n, vectors)
 	}
-	if !ok {
-		return nil, &NumericalError{Sector: sec.label, Detail: "dense eigensolver failed"}
+	switch {
+	case err == nil:
+		return out, nil
+	case ctx.Err() != nil:
+		return nil, ctx.Err()
 	}
-	return out, nil
+	return nil, &NumericalError{Sector: sec.label, Detail: err.Error()}
 }
 
 // workerCount returns the number of goroutines for jobs independent units.

@@ -83,7 +83,7 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 	solve := solvedSectors(src)
 	err := parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
 		i := solve[si]
-		sp, err := diagonalize(st.sys, bs, bs.sectors[i], st.h0, p.isReal, ng > 0)
+		sp, err := diagonalize(ctx, st.sys, bs, bs.sectors[i], st.h0, p.isReal, ng > 0)
 		if err != nil {
 			return err
 		}
@@ -191,7 +191,7 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 			if err := ctx.Err(); err != nil {
 				return err
 			}
-			sp, err := diagonalize(st.sys, bs, sec, op, isReal, true)
+			sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, true)
 			if err != nil {
 				return err
 			}

@@ -60,7 +60,7 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
 		i := solve[si]
 		sec := bs.sectors[i]
-		sp, err := diagonalize(st.sys, bs, sec, op, isReal, kubo)
+		sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, kubo)
 		if err != nil {
 			return err
 		}
@@ -69,7 +69,10 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 		if !kubo {
 			return nil
 		}
-		m2 := momentMatrix(st.sys, bs, sp, st.moment)
+		m2, err := momentMatrix(ctx, st.sys, bs, sp, st.moment)
+		if err != nil {
+			return err
+		}
 		s := sectorSums{e0: e[0], z: make([]float64, nt), mom: make([]float64, nt), kb: make([]float64, nt)}
 		dim := len(e)
 		p := make([]float64, dim)
@@ -239,8 +242,9 @@ type momentElements struct {
 }
 
 // momentMatrix computes O_vw = U^dagger (O U) for the sector's eigenvectors U;
-// O must keep the sector.
-func momentMatrix(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) momentElements {
+// O must keep the sector. The product runs in column panels, with ctx
+// checked between them.
+func momentMatrix(ctx context.Context, sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) (momentElements, error) {
 	sec := sp.sector
 	n := sec.dim()
 	k := make([]int, sys.n)
@@ -267,14 +271,20 @@ func momentMatrix(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operato
 			})
 		}
 		p := make([]float64, n*n)
-		impl.Dgemm(blas.Trans, blas.NoTrans, n, n, n, 1, u, n, x, n, 0, p, n)
+		for j0 := 0; j0 < n; j0 += gemmPanel {
+			if err := ctx.Err(); err != nil {
+				return out, err
+			}
+			w := min(gemmPanel, n-j0)
+			impl.Dgemm(blas.Trans, blas.NoTrans, n, w, n, 1, u, n, x[j0:], n, 0, p[j0:], n)
+		}
 		for i := range p {
 			out.abs2[i] = p[i] * p[i]
 		}
 		for v := 0; v < n; v++ {
 			out.diag[v] = p[v*n+v]
 		}
-		return out
+		return out, nil
 	}
 	u := sp.vecsC
 	x := make([]complex128, n*n)
@@ -295,15 +305,25 @@ func momentMatrix(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operato
 		})
 	}
 	p := make([]complex128, n*n)
-	impl.Zgemm(blas.ConjTrans, blas.NoTrans, n, n, n, 1, u, n, x, n, 0, p, n)
+	for j0 := 0; j0 < n; j0 += gemmPanel {
+		if err := ctx.Err(); err != nil {
+			return out, err
+		}
+		w := min(gemmPanel, n-j0)
+		impl.Zgemm(blas.ConjTrans, blas.NoTrans, n, w, n, 1, u, n, x[j0:], n, 0, p[j0:], n)
+	}
 	for i, v := range p {
 		out.abs2[i] = real(v)*real(v) + imag(v)*imag(v)
 	}
 	for v := 0; v < n; v++ {
 		out.diag[v] = real(p[v*n+v])
 	}
-	return out
+	return out, nil
 }
+
+// gemmPanel is the column width of the matrix products between cancellation
+// checks.
+const gemmPanel = 256
 
 // checkTemperatures refuses an empty list, non-finite values and T < 0 (or
 // T = 0 unless allowZero).

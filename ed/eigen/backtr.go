@@ -31,13 +31,22 @@ const (
 //
 // and V <- P V = V - Y (T (Y^H V)). Each column tile of V is independent,
 // so tiles run in parallel. Only rows 0..k1-1 of V are touched by the block.
-func backTransform(a []complex128, n int, tau []complex128, z []float64) []complex128 {
+//
+// s is polled before every block and every pollRows rows of a tile (by each
+// goroutine); backTransform returns errStopped when it fired.
+func backTransform(a []complex128, n int, tau []complex128, z []float64, s *stopper) ([]complex128, error) {
 	v := make([]complex128, n*n)
-	for i, x := range z[:n*n] {
-		v[i] = complex(x, 0)
+	for i := 0; i < n; i++ {
+		if i%pollRows == 0 && s.stopped() {
+			return nil, errStopped
+		}
+		vr := v[i*n : i*n+n]
+		for j, x := range z[i*n : i*n+n] {
+			vr[j] = complex(x, 0)
+		}
 	}
 	if n <= 1 {
-		return v // Q = I: there are no reflectors
+		return v, nil // Q = I: there are no reflectors
 	}
 	nb := min(backBlock, n-1)
 	y := make([]complex128, n*nb)
@@ -53,6 +62,9 @@ func backTransform(a []complex128, n int, tau []complex128, z []float64) []compl
 	}
 
 	for k0 := 1; k0 <= n-1; k0 += nb {
+		if s.stopped() {
+			return nil, errStopped
+		}
 		k1 := min(k0+nb-1, n-1)
 		m := k1 - k0 + 1
 		// Y (k1 x m, row-major): column r is v_{k1-r}, supported on
@@ -100,6 +112,9 @@ func backTransform(a []complex128, n int, tau []complex128, z []float64) []compl
 			clear(w)
 			// W = Y^H V
 			for i := 0; i < k1; i++ {
+				if i%pollRows == 0 && s.stopped() {
+					return
+				}
 				vrow := v[i*n+c0 : i*n+c1]
 				smax := min(m, k1-i)
 				yrow := y[i*m : i*m+smax]
@@ -119,6 +134,9 @@ func backTransform(a []complex128, n int, tau []complex128, z []float64) []compl
 			}
 			// V -= Y W
 			for i := 0; i < k1; i++ {
+				if i%pollRows == 0 && s.stopped() {
+					return
+				}
 				vrow := v[i*n+c0 : i*n+c1]
 				smax := min(m, k1-i)
 				yrow := y[i*m : i*m+smax]
@@ -145,5 +163,8 @@ func backTransform(a []complex128, n int, tau []complex128, z []float64) []compl
 		}
 		wg.Wait()
 	}
-	return v
+	if s.stopped() {
+		return nil, errStopped
+	}
+	return v, nil
 }

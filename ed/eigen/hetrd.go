@@ -56,14 +56,18 @@ const hetrdBlock = 32
 // stored triangle is updated once per panel by a rank-2nb update. On return
 // row k of a holds v[0:k-1] (v_{k-1} = 1 implied) and tau[k] holds tau_k
 // (tau[0] is unused); the rest of a is destroyed.
-func hetrd(a []complex128, n int, d, e []float64, tau []complex128) {
+//
+// s is polled before every step (one matrix-vector product, at most 4n^2
+// real flops) and every pollRows rows inside the product and the panel
+// update; hetrd returns errStopped when it fired (a is then garbage).
+func hetrd(a []complex128, n int, d, e []float64, tau []complex128, s *stopper) error {
 	if n == 0 {
-		return
+		return nil
 	}
 	tau[0] = 0
 	if n == 1 {
 		d[0] = real(a[0])
-		return
+		return nil
 	}
 	nb := min(hetrdBlock, n-1)
 	// Panel vectors, one per row of length n: V, W and their conjugates.
@@ -76,6 +80,9 @@ func hetrd(a []complex128, n int, d, e []float64, tau []complex128) {
 	for top := n - 1; top >= 1; top -= nb {
 		m := min(nb, top) // panel steps k = top, ..., top-m+1
 		for c := 0; c < m; c++ {
+			if s.stopped() {
+				return errStopped
+			}
 			k := top - c
 			row := a[k*n : k*n+k+1]
 			// Bring row k (with its diagonal) up to date with the panel.
@@ -100,7 +107,7 @@ func hetrd(a []complex128, n int, d, e []float64, tau []complex128) {
 				clear(w)
 			} else {
 				// w = tau (B - sum_j (v_j w_j^H + w_j v_j^H)) v
-				hv.mul(a, n, k, v, w)
+				hv.mul(a, n, k, v, w, s)
 				for j := 0; j < c; j++ {
 					s1 := dotu(wc[j*n:j*n+k], v) // w_j^H v
 					s2 := dotu(vc[j*n:j*n+k], v) // v_j^H v
@@ -117,9 +124,13 @@ func hetrd(a []complex128, n int, d, e []float64, tau []complex128) {
 				wcr[j] = cmplx.Conj(w[j])
 			}
 		}
-		her2kLower(a, n, top-m+1, m, vv, ww, vc, wc)
+		her2kLower(a, n, top-m+1, m, vv, ww, vc, wc, s)
+	}
+	if s.stopped() {
+		return errStopped
 	}
 	d[0] = real(a[0])
+	return nil
 }
 
 // her2kTile is the column tile of the rank-2nb update: the 2nb conjugated
@@ -133,23 +144,27 @@ const her2kTile = 256
 //	A[i][j] -= sum_c ( V_c[i] conj(W_c[j]) + W_c[i] conj(V_c[j]) ),   j <= i < kt,
 //
 // where V_c, W_c are the rows c*n.. of vv, ww and vc, wc their conjugates.
-func her2kLower(a []complex128, n, kt, m int, vv, ww, vc, wc []complex128) {
+// Each goroutine polls s every pollRows rows and returns early when it fired.
+func her2kLower(a []complex128, n, kt, m int, vv, ww, vc, wc []complex128, s *stopper) {
 	w := parallelWorkers(kt * kt * m)
 	if w <= 1 {
-		her2kRows(a, n, 0, kt, m, vv, ww, vc, wc)
+		her2kRows(a, n, 0, kt, m, vv, ww, vc, wc, s)
 		return
 	}
 	bounds := triSplit(kt, w)
 	parallelFor(w, func(t int) {
-		her2kRows(a, n, bounds[t], bounds[t+1], m, vv, ww, vc, wc)
+		her2kRows(a, n, bounds[t], bounds[t+1], m, vv, ww, vc, wc, s)
 	})
 }
 
 // her2kRows does the rows r0 <= i < r1 of her2kLower.
-func her2kRows(a []complex128, n, r0, r1, m int, vv, ww, vc, wc []complex128) {
+func her2kRows(a []complex128, n, r0, r1, m int, vv, ww, vc, wc []complex128, s *stopper) {
 	for j0 := 0; j0 < r1; j0 += her2kTile {
 		j1 := min(j0+her2kTile, r1)
 		for i := max(j0, r0); i < r1; i++ {
+			if (i-r0)%pollRows == 0 && s.stopped() {
+				return
+			}
 			hi := min(i+1, j1)
 			row := a[i*n+j0 : i*n+hi]
 			for c := 0; c < m; c++ {
@@ -181,12 +196,14 @@ func newHemv(n int) *hemv {
 	return h
 }
 
-func (h *hemv) mul(a []complex128, ld, k int, v, p []complex128) {
+// mul sets p = B v (p and v of length k). When s fires it returns early
+// with p incomplete.
+func (h *hemv) mul(a []complex128, ld, k int, v, p []complex128, s *stopper) {
 	w := min(len(h.q), parallelWorkers(k*k/2))
 	if w <= 1 {
 		q := h.q[0][:k]
 		clear(q)
-		hemvRows(a, ld, 0, k, v, p, q)
+		hemvRows(a, ld, 0, k, v, p, q, s)
 		for i := range q {
 			p[i] += cmplx.Conj(q[i])
 		}
@@ -197,7 +214,7 @@ func (h *hemv) mul(a []complex128, ld, k int, v, p []complex128) {
 		r0, r1 := bounds[t], bounds[t+1]
 		q := h.q[t][:r1]
 		clear(q)
-		hemvRows(a, ld, r0, r1, v, p, q)
+		hemvRows(a, ld, r0, r1, v, p, q, s)
 	})
 	for t := 0; t < w; t++ {
 		q := h.q[t][:bounds[t+1]]
@@ -209,8 +226,11 @@ func (h *hemv) mul(a []complex128, ld, k int, v, p []complex128) {
 
 // hemvRows sets p_i for r0 <= i < r1 to the row part of B v and adds the
 // conjugated column parts of these rows to q.
-func hemvRows(a []complex128, ld, r0, r1 int, v, p, q []complex128) {
+func hemvRows(a []complex128, ld, r0, r1 int, v, p, q []complex128, s *stopper) {
 	for i := r0; i < r1; i++ {
+		if (i-r0)%pollRows == 0 && s.stopped() {
+			return
+		}
 		row := a[i*ld : i*ld+i]
 		vi := v[i]
 		s := complex(real(a[i*ld+i]), 0) * vi

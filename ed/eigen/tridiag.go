@@ -39,6 +39,7 @@ type rotBuffer struct {
 	ld     int
 	cs     []float64 // c, s of each rotation, in the order they are applied
 	sweeps []sweep
+	stop   *stopper // polled every four rows of a flush
 }
 
 // rotBufferPairs is the number of rotations gathered before they are applied:
@@ -46,12 +47,12 @@ type rotBuffer struct {
 // streams over them.
 const rotBufferPairs = 1 << 14
 
-func newRotBuffer(z []float64, rows, ld int) *rotBuffer {
+func newRotBuffer(z []float64, rows, ld int, s *stopper) *rotBuffer {
 	if z == nil {
 		return nil
 	}
 	return &rotBuffer{
-		z: z, rows: rows, ld: ld,
+		z: z, rows: rows, ld: ld, stop: s,
 		cs:     make([]float64, 0, 2*min(rotBufferPairs, 2*ld*ld)+2*ld),
 		sweeps: make([]sweep, 0, 256),
 	}
@@ -69,7 +70,9 @@ func (b *rotBuffer) end(off, lo, hi int, back bool) {
 }
 
 // flush applies the recorded rotations to every row of Z, in parallel over
-// rows when the work is large (rows are independent: Z G = [z_i G]_i).
+// rows when the work is large (rows are independent: Z G = [z_i G]_i). When
+// the stopper fires, every goroutine returns at its next group of four rows
+// and Z is left half rotated (the caller polls the stopper after the flush).
 func (b *rotBuffer) flush() {
 	if len(b.sweeps) == 0 {
 		return
@@ -94,6 +97,9 @@ func (b *rotBuffer) applyRows(r0, r1 int) {
 	ld := b.ld
 	r := r0
 	for ; r+3 < r1; r += 4 {
+		if b.stop.stopped() {
+			return
+		}
 		x := b.z[r*ld : r*ld+ld]
 		y := b.z[(r+1)*ld : (r+1)*ld+ld]
 		u := b.z[(r+2)*ld : (r+2)*ld+ld]
@@ -261,7 +267,10 @@ func rotFwd1(x, cs []float64) {
 // ascending and, if z != nil, Z <- Z U with T = U diag(d) U^T, so that with
 // Z = I on entry column k of Z is the eigenvector of d[k], and with Z = Q
 // (A = Q T Q^T) column k is the eigenvector of A. e is destroyed. It returns
-// false if some eigenvalue fails to converge within 30 n iterations.
+// ErrNoConvergence if some eigenvalue fails to converge within 30 n
+// iterations, and errStopped if s fired: s is polled once per sweep (at most
+// n rotations) and every four rows of each flush of the rotation buffer (a
+// flush is rows x 16 Ki rotations).
 //
 // The method is the implicitly shifted QL/QR iteration with the Wilkinson
 // shift (the eigenvalue of the 2x2 block at the converging end that is
@@ -282,13 +291,13 @@ func rotFwd1(x, cs []float64) {
 //
 // performed by the rotations G_{m-1}, ..., G_l, each also applied to Z. The
 // rotations are deferred in a rotBuffer and applied row by row.
-func tridiagQL(d, e []float64, z []float64, rows, ld int) bool {
+func tridiagQL(d, e []float64, z []float64, rows, ld int, s *stopper) error {
 	n := len(d)
 	if n <= 1 {
-		return true
+		return nil
 	}
 	impl := gonum.Implementation{}
-	buf := newRotBuffer(z, rows, ld)
+	buf := newRotBuffer(z, rows, ld, s)
 	const (
 		eps  = unitRoundoff
 		eps2 = eps * eps
@@ -376,9 +385,12 @@ func tridiagQL(d, e []float64, z []float64, rows, ld int) bool {
 					continue
 				}
 				if iter == maxIter {
-					return false
+					return ErrNoConvergence
 				}
 				iter++
+				if s.stopped() {
+					return errStopped
+				}
 				// Wilkinson shift.
 				g := (d[l+1] - p) / (2 * e[l])
 				r := math.Hypot(g, 1)
@@ -441,9 +453,12 @@ func tridiagQL(d, e []float64, z []float64, rows, ld int) bool {
 					continue
 				}
 				if iter == maxIter {
-					return false
+					return ErrNoConvergence
 				}
 				iter++
+				if s.stopped() {
+					return errStopped
+				}
 				g := (d[l-1] - p) / (2 * e[l-1])
 				r := math.Hypot(g, 1)
 				g = d[m] - p + e[l-1]/(g+math.Copysign(r, g))
@@ -485,12 +500,15 @@ func tridiagQL(d, e []float64, z []float64, rows, ld int) bool {
 	if buf != nil {
 		buf.flush()
 	}
-	sortEigen(d, z, rows, ld)
-	return true
+	if s.stopped() {
+		return errStopped
+	}
+	return sortEigen(d, z, rows, ld, s)
 }
 
-// sortEigen sorts d ascending and permutes the columns of Z alike.
-func sortEigen(d []float64, z []float64, rows, ld int) {
+// sortEigen sorts d ascending and permutes the columns of Z alike, polling s
+// every pollRows rows of Z (it returns errStopped when s fired).
+func sortEigen(d []float64, z []float64, rows, ld int, s *stopper) error {
 	n := len(d)
 	sorted := true
 	for i := 1; i < n; i++ {
@@ -500,7 +518,7 @@ func sortEigen(d []float64, z []float64, rows, ld int) {
 		}
 	}
 	if sorted {
-		return
+		return nil
 	}
 	perm := make([]int, n)
 	for i := range perm {
@@ -513,41 +531,24 @@ func sortEigen(d []float64, z []float64, rows, ld int) {
 	}
 	copy(d, nd)
 	if z == nil {
-		return
+		return nil
 	}
 	tmp := nd // reused as a row buffer
 	for r := 0; r < rows; r++ {
+		if r%pollRows == 0 && s.stopped() {
+			return errStopped
+		}
 		row := z[r*ld : r*ld+n]
 		for k, p := range perm {
 			tmp[k] = row[p]
 		}
 		copy(row, tmp)
 	}
+	return nil
 }
 
 // tridiagValues overwrites d with the eigenvalues (ascending) of the
-// symmetric tridiagonal matrix (d, e), destroying e. It uses gonum's
-// root-free Dsterf, except when Dsterf would have to rescale a block (an
-// entry above sqrt(safe_max)/3, or a nonzero off-diagonal entry below
-// sqrt(safe_min)/u^2): Dsterf's rescaling in gonum v0.17.0 passes the
-// diagonal to Dlascl as a strided column and panics, so such matrices go to
-// tridiagQL without vectors instead (same iteration, with square roots).
-func tridiagValues(d, e []float64) bool {
-	ssfmax := math.Sqrt(1/safeMin) / 3
-	ssfmin := math.Sqrt(safeMin) / (unitRoundoff * unitRoundoff)
-	safe := true
-	for _, x := range d {
-		if math.Abs(x) > ssfmax {
-			safe = false
-		}
-	}
-	for _, x := range e {
-		if ax := math.Abs(x); ax > ssfmax || (ax != 0 && ax < ssfmin) {
-			safe = false
-		}
-	}
-	if !safe {
-		return tridiagQL(d, e, nil, 0, 0)
-	}
-	return gonum.Implementation{}.Dsterf(len(d), d, e)
+// symmetric tridiagonal matrix (d, e), destroying e, by the root-free sterf.
+func tridiagValues(d, e []float64, s *stopper) error {
+	return sterf(d, e, s)
 }
