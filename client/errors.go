@@ -3,6 +3,7 @@ package client
 import (
 	"errors"
 	"fmt"
+	rpccode "google.golang.org/genproto/googleapis/rpc/code"
 	"strconv"
 	"strings"
 
@@ -118,49 +119,21 @@ func FieldViolations(err error) []FieldViolation {
 	return out
 }
 
-// codeNames are the canonical names of the status codes, as in
-// google/rpc/code.proto and in JobError.code.
-var codeNames = [...]string{
-	codes.OK:                 "OK",
-	codes.Canceled:           "CANCELLED",
-	codes.Unknown:            "UNKNOWN",
-	codes.InvalidArgument:    "INVALID_ARGUMENT",
-	codes.DeadlineExceeded:   "DEADLINE_EXCEEDED",
-	codes.NotFound:           "NOT_FOUND",
-	codes.AlreadyExists:      "ALREADY_EXISTS",
-	codes.PermissionDenied:   "PERMISSION_DENIED",
-	codes.ResourceExhausted:  "RESOURCE_EXHAUSTED",
-	codes.FailedPrecondition: "FAILED_PRECONDITION",
-	codes.Aborted:            "ABORTED",
-	codes.OutOfRange:         "OUT_OF_RANGE",
-	codes.Unimplemented:      "UNIMPLEMENTED",
-	codes.Internal:           "INTERNAL",
-	codes.Unavailable:        "UNAVAILABLE",
-	codes.DataLoss:           "DATA_LOSS",
-	codes.Unauthenticated:    "UNAUTHENTICATED",
-}
-
-// CodeName returns the canonical name of c, such as "INVALID_ARGUMENT".
-func CodeName(c codes.Code) string {
-	if int(c) < len(codeNames) {
-		return codeNames[c]
-	}
-	return "CODE(" + strconv.Itoa(int(c)) + ")"
-}
+// CodeName returns the canonical name of c, such as "INVALID_ARGUMENT"
+// (google/rpc/code.proto), the form of JobError.code.
+func CodeName(c codes.Code) string { return rpccode.Code(c).String() }
 
 // ParseCode returns the code of a canonical name such as "NOT_FOUND" (also
 // "CANCELED" and the number as text); codes.Unknown for anything else.
 func ParseCode(name string) codes.Code {
 	name = strings.ToUpper(strings.TrimSpace(name))
-	for c, n := range codeNames {
-		if n == name {
-			return codes.Code(c)
-		}
+	if c, ok := rpccode.Code_value[name]; ok {
+		return codes.Code(c)
 	}
 	if name == "CANCELED" {
 		return codes.Canceled
 	}
-	if n, err := strconv.Atoi(name); err == nil && n >= 0 && n < len(codeNames) {
+	if n, err := strconv.Atoi(name); err == nil && n >= 0 && n <= int(codes.Unauthenticated) {
 		return codes.Code(n)
 	}
 	return codes.Unknown

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	rpccode "google.golang.org/genproto/googleapis/rpc/code"
 	"strconv"
 
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
@@ -127,35 +128,9 @@ func jobError(err error) *frustumv1.JobError {
 	return &frustumv1.JobError{Code: CodeName(c), Message: err.Error(), FieldViolations: violations(err)}
 }
 
-// codeNames are the canonical names of google/rpc/code.proto.
-var codeNames = [...]string{
-	codes.OK:                 "OK",
-	codes.Canceled:           "CANCELLED",
-	codes.Unknown:            "UNKNOWN",
-	codes.InvalidArgument:    "INVALID_ARGUMENT",
-	codes.DeadlineExceeded:   "DEADLINE_EXCEEDED",
-	codes.NotFound:           "NOT_FOUND",
-	codes.AlreadyExists:      "ALREADY_EXISTS",
-	codes.PermissionDenied:   "PERMISSION_DENIED",
-	codes.ResourceExhausted:  "RESOURCE_EXHAUSTED",
-	codes.FailedPrecondition: "FAILED_PRECONDITION",
-	codes.Aborted:            "ABORTED",
-	codes.OutOfRange:         "OUT_OF_RANGE",
-	codes.Unimplemented:      "UNIMPLEMENTED",
-	codes.Internal:           "INTERNAL",
-	codes.Unavailable:        "UNAVAILABLE",
-	codes.DataLoss:           "DATA_LOSS",
-	codes.Unauthenticated:    "UNAUTHENTICATED",
-}
-
-// CodeName returns the canonical name of a status code ("INVALID_ARGUMENT"),
-// the form of JobError.code.
-func CodeName(c codes.Code) string {
-	if int(c) < len(codeNames) {
-		return codeNames[c]
-	}
-	return "CODE(" + strconv.Itoa(int(c)) + ")"
-}
+// CodeName returns the canonical name of c, such as "INVALID_ARGUMENT"
+// (google/rpc/code.proto), the form of JobError.code.
+func CodeName(c codes.Code) string { return rpccode.Code(c).String() }
 
 // panicError is a panic of the engine, recovered in the job that caused it.
 type panicError struct {
