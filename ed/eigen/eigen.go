@@ -34,15 +34,27 @@
 // # Cancellation
 //
 // SymmetricContext and HermitianContext poll a flag that context.AfterFunc
-// sets when the context is done (one atomic load per poll; none at all for a
-// context that is never done), in every stage and in every goroutine they
-// start: before each Householder step and every 16 rows of its
-// matrix-vector product and of its panel update, before each QL/QR sweep and
-// every four rows while the deferred rotations are applied, and before each
-// block of 32 reflectors and every 16 rows of a tile of the
-// back-transformations. No stage runs more than a few milliseconds between
-// polls at n = 4000 (see the measurements in cancel_test.go), so a cancelled
-// call returns within a few tens of milliseconds.
+// sets when the context is done (one atomic load per poll; for a context
+// that is never done, such as context.Background, a nil compare), in every
+// stage and in every goroutine they start: every 16 rows of the scan for
+// the largest entry; before each Householder step and every 16 rows of its
+// matrix-vector product and of the panel's rank-2k update; before each
+// QL/QR sweep (of sterf and of tridiagQL), every four rows while the
+// deferred rotations are applied and every 16 rows of the final column
+// permutation; before each block of 32 reflectors and every 16 rows of each
+// column tile of formQ and backTransform. No gonum routine that runs longer
+// than O(n) is called.
+//
+// The longest stretch between two polls, timed with -tags eigenprobe on one
+// core (GOMAXPROCS=1, so no stretch overlaps another) at n = 4000 with
+// vectors, is an allocation, not arithmetic: 68 ms for the 256 MB complex
+// result that backTransform makes (the runtime zeroes it), 23 ms for the
+// 128 MB real Q of formQ; values only, or any stretch of arithmetic, at most
+// 5 ms. These grow as n^2 (extrapolated: about 270 ms for the complex
+// result at n = 8000).
+// From cancel() to return, on the 2-core development machine at n = 4000
+// with vectors, cancelled at ten points spread over the call: at most 0.3 ms
+// (real, 46 s call) and 1.7 ms (complex, 95 s call).
 package eigen
 
 import (
@@ -126,9 +138,10 @@ func Hermitian(a []complex128, n int, vectors bool) (values []float64, vecs []co
 // (ok = false of Symmetric) is reported as an error wrapping
 // ErrNoConvergence. The results with a live ctx are those of Symmetric and
 // Hermitian, and a ctx that is never done (context.Background) costs
-// nothing. See the package documentation for where ctx is polled: at most
-// every few milliseconds of work, in every goroutine; no goroutine the call
-// started outlives it.
+// nothing. See the package documentation for where ctx is polled (in every
+// goroutine, at most every few milliseconds of arithmetic; the longest
+// stretch is allocating the n x n result, 68 ms for complex n = 4000) and
+// for the measured latencies. No goroutine the call started outlives it.
 func SymmetricContext(ctx context.Context, a []float64, n int, vectors bool) (values []float64, vecs []float64, err error) {
 	checkArgs("Symmetric", len(a), n)
 	if probeEnabled {

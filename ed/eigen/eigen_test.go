@@ -874,8 +874,9 @@ func benchHermitian(b *testing.B, n int, vectors bool) {
 	}
 }
 
-// benchDsyev times gonum's Dsyev on the same input, the baseline for
-// Symmetric (whose values-only path is the same Dsytrd + Dsterf).
+// benchDsyev times gonum's Dsyev on the same input, a baseline for
+// Symmetric (Dsyev: Dsytrd + Dsterf or Dorgtr + Dsteqr; Symmetric: sytrd +
+// sterf or formQ + tridiagQL).
 func benchDsyev(b *testing.B, n int, vectors bool) {
 	a0 := randSym(n, 1)
 	a := make([]float64, n*n)
