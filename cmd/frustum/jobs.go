@@ -148,10 +148,7 @@ frustum jobs --state running --server 127.0.0.1:7447`)
 	if err != nil {
 		return err
 	}
-	if err := remote.check(); err != nil {
-		return err
-	}
-	c, err := remote.dial(ctx)
+	c, err := remote.connect(ctx)
 	if err != nil {
 		return err
 	}
@@ -236,10 +233,7 @@ frustum job jobs/7f3a9c --json`)
 	if err != nil {
 		return err
 	}
-	if err := remote.check(); err != nil {
-		return err
-	}
-	c, err := remote.dial(ctx)
+	c, err := remote.connect(ctx)
 	if err != nil {
 		return err
 	}
@@ -397,10 +391,7 @@ frustum watch "$(frustum submit spectrum --cluster testdata/dimer.json)"`)
 	if err != nil {
 		return err
 	}
-	if err := remote.check(); err != nil {
-		return err
-	}
-	c, err := remote.dial(ctx)
+	c, err := remote.connect(ctx)
 	if err != nil {
 		return err
 	}
@@ -475,10 +466,7 @@ that has ended is an error (FAILED_PRECONDITION).`+serverAbout,
 	if err != nil {
 		return err
 	}
-	if err := remote.check(); err != nil {
-		return err
-	}
-	c, err := remote.dial(ctx)
+	c, err := remote.connect(ctx)
 	if err != nil {
 		return err
 	}
@@ -502,10 +490,7 @@ running job must be cancelled first.`+serverAbout,
 	if err != nil {
 		return err
 	}
-	if err := remote.check(); err != nil {
-		return err
-	}
-	c, err := remote.dial(ctx)
+	c, err := remote.connect(ctx)
 	if err != nil {
 		return err
 	}

@@ -89,6 +89,14 @@ func (r *remoteFlags) dial(ctx context.Context) (*client.Client, error) {
 	return c, nil
 }
 
+// connect checks the flags (as check) and dials the server.
+func (r *remoteFlags) connect(ctx context.Context) (*client.Client, error) {
+	if err := r.check(); err != nil {
+		return nil, err
+	}
+	return r.dial(ctx)
+}
+
 // run runs spec as a job on the server and returns its result, with a
 // progress line on stderr when that is a terminal.
 func (r *remoteFlags) run(ctx context.Context, spec *frustumv1.JobSpec, stderr io.Writer) (proto.Message, error) {
