@@ -103,6 +103,13 @@ type MagnetizationRequest struct {
 	Temperatures []float64  // K, each >= 0 (0: ground-state limit)
 	Fields       []float64  // field magnitudes in T along Direction
 	Direction    [3]float64 // any non-zero vector; zero means z
+	// Susceptibility asks for dM/dB along the field at every point as well
+	// (isothermal, with the Van Vleck part), in mu_B/T per cluster.
+	Susceptibility bool
+	// Powder > 0 asks for the powder average over the field directions of a
+	// quadrature rule on the sphere with at least Powder points (the rule
+	// chosen is reported); Direction must then be zero.
+	Powder int
 }
 
 // Curve is M(B) at one temperature: one value per field, mu_B per cluster;
@@ -111,6 +118,9 @@ type Curve struct {
 	Temperature   float64
 	Magnetization []float64
 	Groups        map[string][]float64
+	// Susceptibility is dM/dB along the field, mu_B/T per cluster, when the
+	// request asked for it.
+	Susceptibility []float64
 }
 
 // MagnetizationResult holds one curve per temperature.
@@ -118,8 +128,29 @@ type MagnetizationResult struct {
 	Field      []float64
 	Direction  [3]float64
 	Curves     []Curve
-	Saturation float64 // sum_i |g_i^T n| S_i, mu_B
-	Report     Report
+	Saturation float64 // sum_i |g_i^T n| S_i, mu_B (powder: its average)
+	// GroupSaturation is, per group, the sum over its sites of |g_i^T n| S_i
+	// (mu_B; powder: its average).
+	GroupSaturation map[string]float64
+	// Powder describes the quadrature of a powder average; nil otherwise.
+	Powder *PowderReport
+	Report Report
+}
+
+// PowderReport says how a powder average was taken and how converged it is.
+type PowderReport struct {
+	Rule       string // for example "Lebedev 26"
+	Directions int    // points of the rule
+	Degree     int    // highest degree of polynomials on the sphere integrated exactly
+	Evaluated  int    // distinct directions computed after the symmetry reduction
+	Symmetry   string // what reduced the directions, for example "time reversal (n ~ -n)"
+	// The same average with the next coarser rule: the convergence estimate.
+	CoarseRule       string
+	CoarseDirections int
+	// Deviation is max |M_rule - M_coarse| over every point of every curve
+	// (mu_B per cluster); RelativeDeviation is Deviation / Saturation.
+	Deviation         float64
+	RelativeDeviation float64
 }
 
 // The three tasks. Each validates its request, plans sectors and memory

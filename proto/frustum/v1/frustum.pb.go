@@ -464,9 +464,15 @@ type MagnetizationParameters struct {
 	// point against direction).
 	Fields []float64 `protobuf:"fixed64,2,rep,packed,name=fields,proto3" json:"fields,omitempty"`
 	// direction of the field (3 numbers, normalized by the engine); z when absent.
-	Direction     []float64 `protobuf:"fixed64,3,rep,packed,name=direction,proto3" json:"direction,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Direction []float64 `protobuf:"fixed64,3,rep,packed,name=direction,proto3" json:"direction,omitempty"`
+	// powder > 0: average over the field directions of a quadrature rule on
+	// the sphere with at least this many points (the rule taken is reported in
+	// the result's powder); direction must then be absent.
+	Powder int32 `protobuf:"varint,4,opt,name=powder,proto3" json:"powder,omitempty"`
+	// susceptibility: also return dM/dB along the field at every point.
+	Susceptibility bool `protobuf:"varint,5,opt,name=susceptibility,proto3" json:"susceptibility,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *MagnetizationParameters) Reset() {
@@ -518,6 +524,20 @@ func (x *MagnetizationParameters) GetDirection() []float64 {
 		return x.Direction
 	}
 	return nil
+}
+
+func (x *MagnetizationParameters) GetPowder() int32 {
+	if x != nil {
+		return x.Powder
+	}
+	return 0
+}
+
+func (x *MagnetizationParameters) GetSusceptibility() bool {
+	if x != nil {
+		return x.Susceptibility
+	}
+	return false
 }
 
 // Sector is one block of the Hamiltonian that was diagonalized.
@@ -1063,9 +1083,12 @@ type MagnetizationCurve struct {
 	// magnetization along the field direction, one value per field, mu_B per cluster.
 	Magnetization []float64 `protobuf:"fixed64,2,rep,packed,name=magnetization,proto3" json:"magnetization,omitempty"`
 	// groups: the moment of each site group along the field, mu_B.
-	Groups        map[string]*GroupCurve `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Groups map[string]*GroupCurve `protobuf:"bytes,3,rep,name=groups,proto3" json:"groups,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	// susceptibility dM/dB along the field, isothermal and including the Van
+	// Vleck part, one value per field, mu_B/T per cluster (when asked for).
+	Susceptibility []float64 `protobuf:"fixed64,4,rep,packed,name=susceptibility,proto3" json:"susceptibility,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *MagnetizationCurve) Reset() {
@@ -1119,6 +1142,13 @@ func (x *MagnetizationCurve) GetGroups() map[string]*GroupCurve {
 	return nil
 }
 
+func (x *MagnetizationCurve) GetSusceptibility() []float64 {
+	if x != nil {
+		return x.Susceptibility
+	}
+	return nil
+}
+
 // MagnetizationResult is the result of `frustum magnetization`.
 type MagnetizationResult struct {
 	state       protoimpl.MessageState `protogen:"open.v1"`
@@ -1129,9 +1159,14 @@ type MagnetizationResult struct {
 	Direction []float64 `protobuf:"fixed64,3,rep,packed,name=direction,proto3" json:"direction,omitempty"`
 	// curves: one per temperature.
 	Curves []*MagnetizationCurve `protobuf:"bytes,4,rep,name=curves,proto3" json:"curves,omitempty"`
-	// saturation: the largest moment along direction, sum_i |g_i^T n| S_i, in mu_B.
-	Saturation    float64       `protobuf:"fixed64,5,opt,name=saturation,proto3" json:"saturation,omitempty"`
-	Engine        *EngineReport `protobuf:"bytes,6,opt,name=engine,proto3" json:"engine,omitempty"`
+	// saturation: the largest moment along direction, sum_i |g_i^T n| S_i, in
+	// mu_B (its average over directions for a powder average).
+	Saturation float64       `protobuf:"fixed64,5,opt,name=saturation,proto3" json:"saturation,omitempty"`
+	Engine     *EngineReport `protobuf:"bytes,6,opt,name=engine,proto3" json:"engine,omitempty"`
+	// group_saturation: per group, sum over its sites of |g_i^T n| S_i, mu_B.
+	GroupSaturation map[string]float64 `protobuf:"bytes,7,rep,name=group_saturation,json=groupSaturation,proto3" json:"group_saturation,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"fixed64,2,opt,name=value"`
+	// powder says how the powder average was taken; absent for one direction.
+	Powder        *PowderReport `protobuf:"bytes,8,opt,name=powder,proto3" json:"powder,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1208,6 +1243,1019 @@ func (x *MagnetizationResult) GetEngine() *EngineReport {
 	return nil
 }
 
+func (x *MagnetizationResult) GetGroupSaturation() map[string]float64 {
+	if x != nil {
+		return x.GroupSaturation
+	}
+	return nil
+}
+
+func (x *MagnetizationResult) GetPowder() *PowderReport {
+	if x != nil {
+		return x.Powder
+	}
+	return nil
+}
+
+// PowderReport describes a powder average and its convergence estimate.
+type PowderReport struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// rule names the quadrature on the sphere, for example "Lebedev 26".
+	Rule string `protobuf:"bytes,1,opt,name=rule,proto3" json:"rule,omitempty"`
+	// directions: the number of points of the rule.
+	Directions int32 `protobuf:"varint,2,opt,name=directions,proto3" json:"directions,omitempty"`
+	// degree: polynomials on the sphere up to this degree are integrated exactly.
+	Degree int32 `protobuf:"varint,3,opt,name=degree,proto3" json:"degree,omitempty"`
+	// evaluated: the distinct directions computed after the symmetry reduction.
+	Evaluated int32 `protobuf:"varint,4,opt,name=evaluated,proto3" json:"evaluated,omitempty"`
+	// symmetry: what reduced the directions.
+	Symmetry string `protobuf:"bytes,5,opt,name=symmetry,proto3" json:"symmetry,omitempty"`
+	// coarse_rule and coarse_directions: the next coarser rule, whose average
+	// is the convergence estimate.
+	CoarseRule       string `protobuf:"bytes,6,opt,name=coarse_rule,json=coarseRule,proto3" json:"coarse_rule,omitempty"`
+	CoarseDirections int32  `protobuf:"varint,7,opt,name=coarse_directions,json=coarseDirections,proto3" json:"coarse_directions,omitempty"`
+	// deviation: the largest |M_rule - M_coarse| over all curve points, mu_B
+	// per cluster; relative_deviation = deviation / saturation.
+	Deviation         float64 `protobuf:"fixed64,8,opt,name=deviation,proto3" json:"deviation,omitempty"`
+	RelativeDeviation float64 `protobuf:"fixed64,9,opt,name=relative_deviation,json=relativeDeviation,proto3" json:"relative_deviation,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
+}
+
+func (x *PowderReport) Reset() {
+	*x = PowderReport{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *PowderReport) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*PowderReport) ProtoMessage() {}
+
+func (x *PowderReport) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use PowderReport.ProtoReflect.Descriptor instead.
+func (*PowderReport) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{15}
+}
+
+func (x *PowderReport) GetRule() string {
+	if x != nil {
+		return x.Rule
+	}
+	return ""
+}
+
+func (x *PowderReport) GetDirections() int32 {
+	if x != nil {
+		return x.Directions
+	}
+	return 0
+}
+
+func (x *PowderReport) GetDegree() int32 {
+	if x != nil {
+		return x.Degree
+	}
+	return 0
+}
+
+func (x *PowderReport) GetEvaluated() int32 {
+	if x != nil {
+		return x.Evaluated
+	}
+	return 0
+}
+
+func (x *PowderReport) GetSymmetry() string {
+	if x != nil {
+		return x.Symmetry
+	}
+	return ""
+}
+
+func (x *PowderReport) GetCoarseRule() string {
+	if x != nil {
+		return x.CoarseRule
+	}
+	return ""
+}
+
+func (x *PowderReport) GetCoarseDirections() int32 {
+	if x != nil {
+		return x.CoarseDirections
+	}
+	return 0
+}
+
+func (x *PowderReport) GetDeviation() float64 {
+	if x != nil {
+		return x.Deviation
+	}
+	return 0
+}
+
+func (x *PowderReport) GetRelativeDeviation() float64 {
+	if x != nil {
+		return x.RelativeDeviation
+	}
+	return 0
+}
+
+// MeasuredData is a set of measured points y(B, T), parallel arrays.
+type MeasuredData struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// name, for example the file it was read from.
+	Name string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	// temperature in K, each > 0.
+	Temperature []float64 `protobuf:"fixed64,2,rep,packed,name=temperature,proto3" json:"temperature,omitempty"`
+	// field magnitude in T along the field direction.
+	Field []float64 `protobuf:"fixed64,3,rep,packed,name=field,proto3" json:"field,omitempty"`
+	// value: the measured quantity y, in value_unit.
+	Value []float64 `protobuf:"fixed64,4,rep,packed,name=value,proto3" json:"value,omitempty"`
+	// sigma: the standard error of each value (same unit, > 0); empty when
+	// the data carry none (then every point weighs 1 and the parameter errors
+	// are scaled by the square root of the reduced chi-square).
+	Sigma []float64 `protobuf:"fixed64,5,rep,packed,name=sigma,proto3" json:"sigma,omitempty"`
+	// value_unit as given in the file's header ("1" when none).
+	ValueUnit     string `protobuf:"bytes,6,opt,name=value_unit,json=valueUnit,proto3" json:"value_unit,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *MeasuredData) Reset() {
+	*x = MeasuredData{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *MeasuredData) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*MeasuredData) ProtoMessage() {}
+
+func (x *MeasuredData) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use MeasuredData.ProtoReflect.Descriptor instead.
+func (*MeasuredData) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *MeasuredData) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *MeasuredData) GetTemperature() []float64 {
+	if x != nil {
+		return x.Temperature
+	}
+	return nil
+}
+
+func (x *MeasuredData) GetField() []float64 {
+	if x != nil {
+		return x.Field
+	}
+	return nil
+}
+
+func (x *MeasuredData) GetValue() []float64 {
+	if x != nil {
+		return x.Value
+	}
+	return nil
+}
+
+func (x *MeasuredData) GetSigma() []float64 {
+	if x != nil {
+		return x.Sigma
+	}
+	return nil
+}
+
+func (x *MeasuredData) GetValueUnit() string {
+	if x != nil {
+		return x.ValueUnit
+	}
+	return ""
+}
+
+// FitParameter is one named parameter of a fit, bound to one or more field
+// paths of the cluster (the dotted form of error messages, for example
+// "bonds[6].exchange", "sites[0].g", "bonds[2].dm[2]"); all its paths share
+// one value.
+type FitParameter struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Name  string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Paths []string               `protobuf:"bytes,2,rep,name=paths,proto3" json:"paths,omitempty"`
+	// min and max bound the value (either may be absent).
+	Min *float64 `protobuf:"fixed64,3,opt,name=min,proto3,oneof" json:"min,omitempty"`
+	Max *float64 `protobuf:"fixed64,4,opt,name=max,proto3,oneof" json:"max,omitempty"`
+	// start: the starting value; the cluster's value at the first path when
+	// absent.
+	Start         *float64 `protobuf:"fixed64,5,opt,name=start,proto3,oneof" json:"start,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *FitParameter) Reset() {
+	*x = FitParameter{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FitParameter) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FitParameter) ProtoMessage() {}
+
+func (x *FitParameter) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FitParameter.ProtoReflect.Descriptor instead.
+func (*FitParameter) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{17}
+}
+
+func (x *FitParameter) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *FitParameter) GetPaths() []string {
+	if x != nil {
+		return x.Paths
+	}
+	return nil
+}
+
+func (x *FitParameter) GetMin() float64 {
+	if x != nil && x.Min != nil {
+		return *x.Min
+	}
+	return 0
+}
+
+func (x *FitParameter) GetMax() float64 {
+	if x != nil && x.Max != nil {
+		return *x.Max
+	}
+	return 0
+}
+
+func (x *FitParameter) GetStart() float64 {
+	if x != nil && x.Start != nil {
+		return *x.Start
+	}
+	return 0
+}
+
+// FitParameters are the parameters of `frustum fit`.
+type FitParameters struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Data  *MeasuredData          `protobuf:"bytes,1,opt,name=data,proto3" json:"data,omitempty"`
+	// models: the clusters set against the data (each named by its name).
+	Models []*Cluster `protobuf:"bytes,2,rep,name=models,proto3" json:"models,omitempty"`
+	// observable O(B, T) linked to the data as y = a O + c:
+	//
+	//	"polarization[:GROUP]"          M/M_sat (of the cluster or a group)
+	//	"polarization-squared[:GROUP]"  (M/M_sat)^2
+	//	"fluctuation"                   k_B T chi / mu_B, in mu_B per cluster
+	//	"moment[:GROUP]"                M in mu_B
+	Observable string `protobuf:"bytes,3,opt,name=observable,proto3" json:"observable,omitempty"`
+	// vary: the parameters fitted, the same for every model that has their
+	// paths (a model lacking a path is fitted without that parameter).
+	Vary []*FitParameter `protobuf:"bytes,4,rep,name=vary,proto3" json:"vary,omitempty"`
+	// link: "global" (one a, c for all points, the default) or
+	// "per-temperature" (one a, c per temperature).
+	Link string `protobuf:"bytes,5,opt,name=link,proto3" json:"link,omitempty"`
+	// powder > 0: the models' observables are powder averages (see
+	// MagnetizationParameters.powder).
+	Powder int32 `protobuf:"varint,6,opt,name=powder,proto3" json:"powder,omitempty"`
+	// direction of the field for single-crystal data; z when absent.
+	Direction []float64 `protobuf:"fixed64,7,rep,packed,name=direction,proto3" json:"direction,omitempty"`
+	// scaling_g: the g of the scaling variable x = g mu_B B / (2 k_B T) given
+	// for every point; 2 when absent.
+	ScalingG *float64 `protobuf:"fixed64,8,opt,name=scaling_g,json=scalingG,proto3,oneof" json:"scaling_g,omitempty"`
+	// max_evaluations bounds the model evaluations of each fit; 0 means 400.
+	MaxEvaluations int32 `protobuf:"varint,9,opt,name=max_evaluations,json=maxEvaluations,proto3" json:"max_evaluations,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
+}
+
+func (x *FitParameters) Reset() {
+	*x = FitParameters{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FitParameters) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FitParameters) ProtoMessage() {}
+
+func (x *FitParameters) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FitParameters.ProtoReflect.Descriptor instead.
+func (*FitParameters) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{18}
+}
+
+func (x *FitParameters) GetData() *MeasuredData {
+	if x != nil {
+		return x.Data
+	}
+	return nil
+}
+
+func (x *FitParameters) GetModels() []*Cluster {
+	if x != nil {
+		return x.Models
+	}
+	return nil
+}
+
+func (x *FitParameters) GetObservable() string {
+	if x != nil {
+		return x.Observable
+	}
+	return ""
+}
+
+func (x *FitParameters) GetVary() []*FitParameter {
+	if x != nil {
+		return x.Vary
+	}
+	return nil
+}
+
+func (x *FitParameters) GetLink() string {
+	if x != nil {
+		return x.Link
+	}
+	return ""
+}
+
+func (x *FitParameters) GetPowder() int32 {
+	if x != nil {
+		return x.Powder
+	}
+	return 0
+}
+
+func (x *FitParameters) GetDirection() []float64 {
+	if x != nil {
+		return x.Direction
+	}
+	return nil
+}
+
+func (x *FitParameters) GetScalingG() float64 {
+	if x != nil && x.ScalingG != nil {
+		return *x.ScalingG
+	}
+	return 0
+}
+
+func (x *FitParameters) GetMaxEvaluations() int32 {
+	if x != nil {
+		return x.MaxEvaluations
+	}
+	return 0
+}
+
+// FittedParameter is a parameter at the optimum.
+type FittedParameter struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Name  string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	// value at the optimum and its standard error from the covariance matrix.
+	Value float64 `protobuf:"fixed64,2,opt,name=value,proto3" json:"value,omitempty"`
+	Error float64 `protobuf:"fixed64,3,opt,name=error,proto3" json:"error,omitempty"`
+	// unit of value and error ("K" for couplings, "1" for g, the data's unit
+	// for the link offset).
+	Unit  string   `protobuf:"bytes,4,opt,name=unit,proto3" json:"unit,omitempty"`
+	Paths []string `protobuf:"bytes,5,rep,name=paths,proto3" json:"paths,omitempty"`
+	// at_bound: the optimum lies on a bound, where the error is not meaningful.
+	AtBound       bool `protobuf:"varint,6,opt,name=at_bound,json=atBound,proto3" json:"at_bound,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *FittedParameter) Reset() {
+	*x = FittedParameter{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FittedParameter) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FittedParameter) ProtoMessage() {}
+
+func (x *FittedParameter) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FittedParameter.ProtoReflect.Descriptor instead.
+func (*FittedParameter) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{19}
+}
+
+func (x *FittedParameter) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *FittedParameter) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+func (x *FittedParameter) GetError() float64 {
+	if x != nil {
+		return x.Error
+	}
+	return 0
+}
+
+func (x *FittedParameter) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *FittedParameter) GetPaths() []string {
+	if x != nil {
+		return x.Paths
+	}
+	return nil
+}
+
+func (x *FittedParameter) GetAtBound() bool {
+	if x != nil {
+		return x.AtBound
+	}
+	return false
+}
+
+// LinkCoefficients are a and c of y = a O + c, for all points or for one
+// temperature.
+type LinkCoefficients struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// temperature in K for a per-temperature link; absent for a global link.
+	Temperature   *float64 `protobuf:"fixed64,1,opt,name=temperature,proto3,oneof" json:"temperature,omitempty"`
+	Scale         float64  `protobuf:"fixed64,2,opt,name=scale,proto3" json:"scale,omitempty"`
+	ScaleError    float64  `protobuf:"fixed64,3,opt,name=scale_error,json=scaleError,proto3" json:"scale_error,omitempty"`
+	Offset        float64  `protobuf:"fixed64,4,opt,name=offset,proto3" json:"offset,omitempty"`
+	OffsetError   float64  `protobuf:"fixed64,5,opt,name=offset_error,json=offsetError,proto3" json:"offset_error,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LinkCoefficients) Reset() {
+	*x = LinkCoefficients{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LinkCoefficients) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LinkCoefficients) ProtoMessage() {}
+
+func (x *LinkCoefficients) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LinkCoefficients.ProtoReflect.Descriptor instead.
+func (*LinkCoefficients) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{20}
+}
+
+func (x *LinkCoefficients) GetTemperature() float64 {
+	if x != nil && x.Temperature != nil {
+		return *x.Temperature
+	}
+	return 0
+}
+
+func (x *LinkCoefficients) GetScale() float64 {
+	if x != nil {
+		return x.Scale
+	}
+	return 0
+}
+
+func (x *LinkCoefficients) GetScaleError() float64 {
+	if x != nil {
+		return x.ScaleError
+	}
+	return 0
+}
+
+func (x *LinkCoefficients) GetOffset() float64 {
+	if x != nil {
+		return x.Offset
+	}
+	return 0
+}
+
+func (x *LinkCoefficients) GetOffsetError() float64 {
+	if x != nil {
+		return x.OffsetError
+	}
+	return 0
+}
+
+// Correlation is the correlation coefficient of two fitted quantities.
+type Correlation struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	A             string                 `protobuf:"bytes,1,opt,name=a,proto3" json:"a,omitempty"`
+	B             string                 `protobuf:"bytes,2,opt,name=b,proto3" json:"b,omitempty"`
+	Value         float64                `protobuf:"fixed64,3,opt,name=value,proto3" json:"value,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Correlation) Reset() {
+	*x = Correlation{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Correlation) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Correlation) ProtoMessage() {}
+
+func (x *Correlation) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Correlation.ProtoReflect.Descriptor instead.
+func (*Correlation) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *Correlation) GetA() string {
+	if x != nil {
+		return x.A
+	}
+	return ""
+}
+
+func (x *Correlation) GetB() string {
+	if x != nil {
+		return x.B
+	}
+	return ""
+}
+
+func (x *Correlation) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+// ModelFit is one model (or baseline) at its optimum.
+type ModelFit struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// name: the cluster's name, or "free spin 1/2" and "free spin 1".
+	Name     string `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Baseline bool   `protobuf:"varint,2,opt,name=baseline,proto3" json:"baseline,omitempty"`
+	// chi_square = sum ((y - a O - c)/sigma)^2; degrees_of_freedom = points -
+	// fitted quantities (parameters and link coefficients).
+	ChiSquare        float64 `protobuf:"fixed64,3,opt,name=chi_square,json=chiSquare,proto3" json:"chi_square,omitempty"`
+	DegreesOfFreedom int32   `protobuf:"varint,4,opt,name=degrees_of_freedom,json=degreesOfFreedom,proto3" json:"degrees_of_freedom,omitempty"`
+	ReducedChiSquare float64 `protobuf:"fixed64,5,opt,name=reduced_chi_square,json=reducedChiSquare,proto3" json:"reduced_chi_square,omitempty"`
+	// aic = chi_square + 2 k and bic = chi_square + k ln n (k fitted
+	// quantities, n points); without sigma n ln(chi_square/n) replaces
+	// chi_square.
+	Aic        float64            `protobuf:"fixed64,6,opt,name=aic,proto3" json:"aic,omitempty"`
+	Bic        float64            `protobuf:"fixed64,7,opt,name=bic,proto3" json:"bic,omitempty"`
+	Parameters []*FittedParameter `protobuf:"bytes,8,rep,name=parameters,proto3" json:"parameters,omitempty"`
+	// links: one entry for a global link, one per temperature otherwise.
+	Links []*LinkCoefficients `protobuf:"bytes,9,rep,name=links,proto3" json:"links,omitempty"`
+	// curve: the model's y at every data point (data units).
+	Curve []float64 `protobuf:"fixed64,10,rep,packed,name=curve,proto3" json:"curve,omitempty"`
+	// observable: O(B, T) at every data point.
+	Observable []float64 `protobuf:"fixed64,11,rep,packed,name=observable,proto3" json:"observable,omitempty"`
+	// residual: (y - curve) / sigma at every point.
+	Residual []float64 `protobuf:"fixed64,12,rep,packed,name=residual,proto3" json:"residual,omitempty"`
+	// correlations of every pair of fitted quantities.
+	Correlations []*Correlation `protobuf:"bytes,13,rep,name=correlations,proto3" json:"correlations,omitempty"`
+	// converged: the optimizer met its convergence test.
+	Converged bool `protobuf:"varint,14,opt,name=converged,proto3" json:"converged,omitempty"`
+	// evaluations: model evaluations used.
+	Evaluations int32 `protobuf:"varint,15,opt,name=evaluations,proto3" json:"evaluations,omitempty"`
+	// warnings: degenerate parameters, values on bounds, no convergence.
+	Warnings []string `protobuf:"bytes,16,rep,name=warnings,proto3" json:"warnings,omitempty"`
+	// cluster: the model with the fitted values put in (absent for baselines).
+	Cluster *Cluster `protobuf:"bytes,17,opt,name=cluster,proto3" json:"cluster,omitempty"`
+	// engine: the report of the final evaluation.
+	Engine        *EngineReport `protobuf:"bytes,18,opt,name=engine,proto3" json:"engine,omitempty"`
+	Powder        *PowderReport `protobuf:"bytes,19,opt,name=powder,proto3" json:"powder,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ModelFit) Reset() {
+	*x = ModelFit{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ModelFit) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ModelFit) ProtoMessage() {}
+
+func (x *ModelFit) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ModelFit.ProtoReflect.Descriptor instead.
+func (*ModelFit) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{22}
+}
+
+func (x *ModelFit) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *ModelFit) GetBaseline() bool {
+	if x != nil {
+		return x.Baseline
+	}
+	return false
+}
+
+func (x *ModelFit) GetChiSquare() float64 {
+	if x != nil {
+		return x.ChiSquare
+	}
+	return 0
+}
+
+func (x *ModelFit) GetDegreesOfFreedom() int32 {
+	if x != nil {
+		return x.DegreesOfFreedom
+	}
+	return 0
+}
+
+func (x *ModelFit) GetReducedChiSquare() float64 {
+	if x != nil {
+		return x.ReducedChiSquare
+	}
+	return 0
+}
+
+func (x *ModelFit) GetAic() float64 {
+	if x != nil {
+		return x.Aic
+	}
+	return 0
+}
+
+func (x *ModelFit) GetBic() float64 {
+	if x != nil {
+		return x.Bic
+	}
+	return 0
+}
+
+func (x *ModelFit) GetParameters() []*FittedParameter {
+	if x != nil {
+		return x.Parameters
+	}
+	return nil
+}
+
+func (x *ModelFit) GetLinks() []*LinkCoefficients {
+	if x != nil {
+		return x.Links
+	}
+	return nil
+}
+
+func (x *ModelFit) GetCurve() []float64 {
+	if x != nil {
+		return x.Curve
+	}
+	return nil
+}
+
+func (x *ModelFit) GetObservable() []float64 {
+	if x != nil {
+		return x.Observable
+	}
+	return nil
+}
+
+func (x *ModelFit) GetResidual() []float64 {
+	if x != nil {
+		return x.Residual
+	}
+	return nil
+}
+
+func (x *ModelFit) GetCorrelations() []*Correlation {
+	if x != nil {
+		return x.Correlations
+	}
+	return nil
+}
+
+func (x *ModelFit) GetConverged() bool {
+	if x != nil {
+		return x.Converged
+	}
+	return false
+}
+
+func (x *ModelFit) GetEvaluations() int32 {
+	if x != nil {
+		return x.Evaluations
+	}
+	return 0
+}
+
+func (x *ModelFit) GetWarnings() []string {
+	if x != nil {
+		return x.Warnings
+	}
+	return nil
+}
+
+func (x *ModelFit) GetCluster() *Cluster {
+	if x != nil {
+		return x.Cluster
+	}
+	return nil
+}
+
+func (x *ModelFit) GetEngine() *EngineReport {
+	if x != nil {
+		return x.Engine
+	}
+	return nil
+}
+
+func (x *ModelFit) GetPowder() *PowderReport {
+	if x != nil {
+		return x.Powder
+	}
+	return nil
+}
+
+// FitResult is the result of `frustum fit`.
+type FitResult struct {
+	state      protoimpl.MessageState `protogen:"open.v1"`
+	Observable string                 `protobuf:"bytes,1,opt,name=observable,proto3" json:"observable,omitempty"`
+	Link       string                 `protobuf:"bytes,2,opt,name=link,proto3" json:"link,omitempty"`
+	// The data: parallel arrays, one entry per point, in the file's order.
+	DataName    string    `protobuf:"bytes,3,opt,name=data_name,json=dataName,proto3" json:"data_name,omitempty"`
+	Temperature []float64 `protobuf:"fixed64,4,rep,packed,name=temperature,proto3" json:"temperature,omitempty"`
+	Field       []float64 `protobuf:"fixed64,5,rep,packed,name=field,proto3" json:"field,omitempty"`
+	Value       []float64 `protobuf:"fixed64,6,rep,packed,name=value,proto3" json:"value,omitempty"`
+	Sigma       []float64 `protobuf:"fixed64,7,rep,packed,name=sigma,proto3" json:"sigma,omitempty"`
+	ValueUnit   string    `protobuf:"bytes,8,opt,name=value_unit,json=valueUnit,proto3" json:"value_unit,omitempty"`
+	// scaling: x = g mu_B B / (2 k_B T) at every point with g = scaling_g.
+	Scaling  []float64 `protobuf:"fixed64,9,rep,packed,name=scaling,proto3" json:"scaling,omitempty"`
+	ScalingG float64   `protobuf:"fixed64,10,opt,name=scaling_g,json=scalingG,proto3" json:"scaling_g,omitempty"`
+	// models: every model and every baseline, in the order given, baselines last.
+	Models []*ModelFit `protobuf:"bytes,11,rep,name=models,proto3" json:"models,omitempty"`
+	// best: the name of the model with the lowest AIC.
+	Best          string   `protobuf:"bytes,12,opt,name=best,proto3" json:"best,omitempty"`
+	Warnings      []string `protobuf:"bytes,13,rep,name=warnings,proto3" json:"warnings,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *FitResult) Reset() {
+	*x = FitResult{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FitResult) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FitResult) ProtoMessage() {}
+
+func (x *FitResult) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FitResult.ProtoReflect.Descriptor instead.
+func (*FitResult) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *FitResult) GetObservable() string {
+	if x != nil {
+		return x.Observable
+	}
+	return ""
+}
+
+func (x *FitResult) GetLink() string {
+	if x != nil {
+		return x.Link
+	}
+	return ""
+}
+
+func (x *FitResult) GetDataName() string {
+	if x != nil {
+		return x.DataName
+	}
+	return ""
+}
+
+func (x *FitResult) GetTemperature() []float64 {
+	if x != nil {
+		return x.Temperature
+	}
+	return nil
+}
+
+func (x *FitResult) GetField() []float64 {
+	if x != nil {
+		return x.Field
+	}
+	return nil
+}
+
+func (x *FitResult) GetValue() []float64 {
+	if x != nil {
+		return x.Value
+	}
+	return nil
+}
+
+func (x *FitResult) GetSigma() []float64 {
+	if x != nil {
+		return x.Sigma
+	}
+	return nil
+}
+
+func (x *FitResult) GetValueUnit() string {
+	if x != nil {
+		return x.ValueUnit
+	}
+	return ""
+}
+
+func (x *FitResult) GetScaling() []float64 {
+	if x != nil {
+		return x.Scaling
+	}
+	return nil
+}
+
+func (x *FitResult) GetScalingG() float64 {
+	if x != nil {
+		return x.ScalingG
+	}
+	return 0
+}
+
+func (x *FitResult) GetModels() []*ModelFit {
+	if x != nil {
+		return x.Models
+	}
+	return nil
+}
+
+func (x *FitResult) GetBest() string {
+	if x != nil {
+		return x.Best
+	}
+	return ""
+}
+
+func (x *FitResult) GetWarnings() []string {
+	if x != nil {
+		return x.Warnings
+	}
+	return nil
+}
+
 var File_frustum_v1_frustum_proto protoreflect.FileDescriptor
 
 const file_frustum_v1_frustum_proto_rawDesc = "" +
@@ -1251,11 +2299,13 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x06levels\x18\x02 \x01(\x05R\x06levels\"L\n" +
 	"\x10ThermoParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x14\n" +
-	"\x05field\x18\x02 \x03(\x01R\x05field\"s\n" +
+	"\x05field\x18\x02 \x03(\x01R\x05field\"\xb3\x01\n" +
 	"\x17MagnetizationParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x16\n" +
 	"\x06fields\x18\x02 \x03(\x01R\x06fields\x12\x1c\n" +
-	"\tdirection\x18\x03 \x03(\x01R\tdirection\"X\n" +
+	"\tdirection\x18\x03 \x03(\x01R\tdirection\x12\x16\n" +
+	"\x06powder\x18\x04 \x01(\x05R\x06powder\x12&\n" +
+	"\x0esusceptibility\x18\x05 \x01(\bR\x0esusceptibility\"X\n" +
 	"\x06Sector\x12\x14\n" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x13\n" +
 	"\x02sz\x18\x02 \x01(\x01H\x00R\x02sz\x88\x01\x01\x12\x1c\n" +
@@ -1304,14 +2354,15 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	" \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\"$\n" +
 	"\n" +
 	"GroupCurve\x12\x16\n" +
-	"\x06values\x18\x01 \x03(\x01R\x06values\"\xf3\x01\n" +
+	"\x06values\x18\x01 \x03(\x01R\x06values\"\x9b\x02\n" +
 	"\x12MagnetizationCurve\x12 \n" +
 	"\vtemperature\x18\x01 \x01(\x01R\vtemperature\x12$\n" +
 	"\rmagnetization\x18\x02 \x03(\x01R\rmagnetization\x12B\n" +
-	"\x06groups\x18\x03 \x03(\v2*.frustum.v1.MagnetizationCurve.GroupsEntryR\x06groups\x1aQ\n" +
+	"\x06groups\x18\x03 \x03(\v2*.frustum.v1.MagnetizationCurve.GroupsEntryR\x06groups\x12&\n" +
+	"\x0esusceptibility\x18\x04 \x03(\x01R\x0esusceptibility\x1aQ\n" +
 	"\vGroupsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12,\n" +
-	"\x05value\x18\x02 \x01(\v2\x16.frustum.v1.GroupCurveR\x05value:\x028\x01\"\xf6\x01\n" +
+	"\x05value\x18\x02 \x01(\v2\x16.frustum.v1.GroupCurveR\x05value:\x028\x01\"\xcd\x03\n" +
 	"\x13MagnetizationResult\x12!\n" +
 	"\fcluster_name\x18\x01 \x01(\tR\vclusterName\x12\x14\n" +
 	"\x05field\x18\x02 \x03(\x01R\x05field\x12\x1c\n" +
@@ -1320,7 +2371,119 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\n" +
 	"saturation\x18\x05 \x01(\x01R\n" +
 	"saturation\x120\n" +
-	"\x06engine\x18\x06 \x01(\v2\x18.frustum.v1.EngineReportR\x06engineB$Z\"frustum/proto/frustum/v1;frustumv1b\x06proto3"
+	"\x06engine\x18\x06 \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\x12_\n" +
+	"\x10group_saturation\x18\a \x03(\v24.frustum.v1.MagnetizationResult.GroupSaturationEntryR\x0fgroupSaturation\x120\n" +
+	"\x06powder\x18\b \x01(\v2\x18.frustum.v1.PowderReportR\x06powder\x1aB\n" +
+	"\x14GroupSaturationEntry\x12\x10\n" +
+	"\x03key\x18\x01 \x01(\tR\x03key\x12\x14\n" +
+	"\x05value\x18\x02 \x01(\x01R\x05value:\x028\x01\"\xaf\x02\n" +
+	"\fPowderReport\x12\x12\n" +
+	"\x04rule\x18\x01 \x01(\tR\x04rule\x12\x1e\n" +
+	"\n" +
+	"directions\x18\x02 \x01(\x05R\n" +
+	"directions\x12\x16\n" +
+	"\x06degree\x18\x03 \x01(\x05R\x06degree\x12\x1c\n" +
+	"\tevaluated\x18\x04 \x01(\x05R\tevaluated\x12\x1a\n" +
+	"\bsymmetry\x18\x05 \x01(\tR\bsymmetry\x12\x1f\n" +
+	"\vcoarse_rule\x18\x06 \x01(\tR\n" +
+	"coarseRule\x12+\n" +
+	"\x11coarse_directions\x18\a \x01(\x05R\x10coarseDirections\x12\x1c\n" +
+	"\tdeviation\x18\b \x01(\x01R\tdeviation\x12-\n" +
+	"\x12relative_deviation\x18\t \x01(\x01R\x11relativeDeviation\"\xa5\x01\n" +
+	"\fMeasuredData\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12 \n" +
+	"\vtemperature\x18\x02 \x03(\x01R\vtemperature\x12\x14\n" +
+	"\x05field\x18\x03 \x03(\x01R\x05field\x12\x14\n" +
+	"\x05value\x18\x04 \x03(\x01R\x05value\x12\x14\n" +
+	"\x05sigma\x18\x05 \x03(\x01R\x05sigma\x12\x1d\n" +
+	"\n" +
+	"value_unit\x18\x06 \x01(\tR\tvalueUnit\"\x9b\x01\n" +
+	"\fFitParameter\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
+	"\x05paths\x18\x02 \x03(\tR\x05paths\x12\x15\n" +
+	"\x03min\x18\x03 \x01(\x01H\x00R\x03min\x88\x01\x01\x12\x15\n" +
+	"\x03max\x18\x04 \x01(\x01H\x01R\x03max\x88\x01\x01\x12\x19\n" +
+	"\x05start\x18\x05 \x01(\x01H\x02R\x05start\x88\x01\x01B\x06\n" +
+	"\x04_minB\x06\n" +
+	"\x04_maxB\b\n" +
+	"\x06_start\"\xdb\x02\n" +
+	"\rFitParameters\x12,\n" +
+	"\x04data\x18\x01 \x01(\v2\x18.frustum.v1.MeasuredDataR\x04data\x12+\n" +
+	"\x06models\x18\x02 \x03(\v2\x13.frustum.v1.ClusterR\x06models\x12\x1e\n" +
+	"\n" +
+	"observable\x18\x03 \x01(\tR\n" +
+	"observable\x12,\n" +
+	"\x04vary\x18\x04 \x03(\v2\x18.frustum.v1.FitParameterR\x04vary\x12\x12\n" +
+	"\x04link\x18\x05 \x01(\tR\x04link\x12\x16\n" +
+	"\x06powder\x18\x06 \x01(\x05R\x06powder\x12\x1c\n" +
+	"\tdirection\x18\a \x03(\x01R\tdirection\x12 \n" +
+	"\tscaling_g\x18\b \x01(\x01H\x00R\bscalingG\x88\x01\x01\x12'\n" +
+	"\x0fmax_evaluations\x18\t \x01(\x05R\x0emaxEvaluationsB\f\n" +
+	"\n" +
+	"_scaling_g\"\x96\x01\n" +
+	"\x0fFittedParameter\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
+	"\x05value\x18\x02 \x01(\x01R\x05value\x12\x14\n" +
+	"\x05error\x18\x03 \x01(\x01R\x05error\x12\x12\n" +
+	"\x04unit\x18\x04 \x01(\tR\x04unit\x12\x14\n" +
+	"\x05paths\x18\x05 \x03(\tR\x05paths\x12\x19\n" +
+	"\bat_bound\x18\x06 \x01(\bR\aatBound\"\xbb\x01\n" +
+	"\x10LinkCoefficients\x12%\n" +
+	"\vtemperature\x18\x01 \x01(\x01H\x00R\vtemperature\x88\x01\x01\x12\x14\n" +
+	"\x05scale\x18\x02 \x01(\x01R\x05scale\x12\x1f\n" +
+	"\vscale_error\x18\x03 \x01(\x01R\n" +
+	"scaleError\x12\x16\n" +
+	"\x06offset\x18\x04 \x01(\x01R\x06offset\x12!\n" +
+	"\foffset_error\x18\x05 \x01(\x01R\voffsetErrorB\x0e\n" +
+	"\f_temperature\"?\n" +
+	"\vCorrelation\x12\f\n" +
+	"\x01a\x18\x01 \x01(\tR\x01a\x12\f\n" +
+	"\x01b\x18\x02 \x01(\tR\x01b\x12\x14\n" +
+	"\x05value\x18\x03 \x01(\x01R\x05value\"\xc8\x05\n" +
+	"\bModelFit\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x1a\n" +
+	"\bbaseline\x18\x02 \x01(\bR\bbaseline\x12\x1d\n" +
+	"\n" +
+	"chi_square\x18\x03 \x01(\x01R\tchiSquare\x12,\n" +
+	"\x12degrees_of_freedom\x18\x04 \x01(\x05R\x10degreesOfFreedom\x12,\n" +
+	"\x12reduced_chi_square\x18\x05 \x01(\x01R\x10reducedChiSquare\x12\x10\n" +
+	"\x03aic\x18\x06 \x01(\x01R\x03aic\x12\x10\n" +
+	"\x03bic\x18\a \x01(\x01R\x03bic\x12;\n" +
+	"\n" +
+	"parameters\x18\b \x03(\v2\x1b.frustum.v1.FittedParameterR\n" +
+	"parameters\x122\n" +
+	"\x05links\x18\t \x03(\v2\x1c.frustum.v1.LinkCoefficientsR\x05links\x12\x14\n" +
+	"\x05curve\x18\n" +
+	" \x03(\x01R\x05curve\x12\x1e\n" +
+	"\n" +
+	"observable\x18\v \x03(\x01R\n" +
+	"observable\x12\x1a\n" +
+	"\bresidual\x18\f \x03(\x01R\bresidual\x12;\n" +
+	"\fcorrelations\x18\r \x03(\v2\x17.frustum.v1.CorrelationR\fcorrelations\x12\x1c\n" +
+	"\tconverged\x18\x0e \x01(\bR\tconverged\x12 \n" +
+	"\vevaluations\x18\x0f \x01(\x05R\vevaluations\x12\x1a\n" +
+	"\bwarnings\x18\x10 \x03(\tR\bwarnings\x12-\n" +
+	"\acluster\x18\x11 \x01(\v2\x13.frustum.v1.ClusterR\acluster\x120\n" +
+	"\x06engine\x18\x12 \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\x120\n" +
+	"\x06powder\x18\x13 \x01(\v2\x18.frustum.v1.PowderReportR\x06powder\"\xf4\x02\n" +
+	"\tFitResult\x12\x1e\n" +
+	"\n" +
+	"observable\x18\x01 \x01(\tR\n" +
+	"observable\x12\x12\n" +
+	"\x04link\x18\x02 \x01(\tR\x04link\x12\x1b\n" +
+	"\tdata_name\x18\x03 \x01(\tR\bdataName\x12 \n" +
+	"\vtemperature\x18\x04 \x03(\x01R\vtemperature\x12\x14\n" +
+	"\x05field\x18\x05 \x03(\x01R\x05field\x12\x14\n" +
+	"\x05value\x18\x06 \x03(\x01R\x05value\x12\x14\n" +
+	"\x05sigma\x18\a \x03(\x01R\x05sigma\x12\x1d\n" +
+	"\n" +
+	"value_unit\x18\b \x01(\tR\tvalueUnit\x12\x18\n" +
+	"\ascaling\x18\t \x03(\x01R\ascaling\x12\x1b\n" +
+	"\tscaling_g\x18\n" +
+	" \x01(\x01R\bscalingG\x12,\n" +
+	"\x06models\x18\v \x03(\v2\x14.frustum.v1.ModelFitR\x06models\x12\x12\n" +
+	"\x04best\x18\f \x01(\tR\x04best\x12\x1a\n" +
+	"\bwarnings\x18\r \x03(\tR\bwarningsB$Z\"frustum/proto/frustum/v1;frustumv1b\x06proto3"
 
 var (
 	file_frustum_v1_frustum_proto_rawDescOnce sync.Once
@@ -1334,7 +2497,7 @@ func file_frustum_v1_frustum_proto_rawDescGZIP() []byte {
 	return file_frustum_v1_frustum_proto_rawDescData
 }
 
-var file_frustum_v1_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 16)
+var file_frustum_v1_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 26)
 var file_frustum_v1_frustum_proto_goTypes = []any{
 	(*Site)(nil),                    // 0: frustum.v1.Site
 	(*Bond)(nil),                    // 1: frustum.v1.Bond
@@ -1351,7 +2514,17 @@ var file_frustum_v1_frustum_proto_goTypes = []any{
 	(*GroupCurve)(nil),              // 12: frustum.v1.GroupCurve
 	(*MagnetizationCurve)(nil),      // 13: frustum.v1.MagnetizationCurve
 	(*MagnetizationResult)(nil),     // 14: frustum.v1.MagnetizationResult
-	nil,                             // 15: frustum.v1.MagnetizationCurve.GroupsEntry
+	(*PowderReport)(nil),            // 15: frustum.v1.PowderReport
+	(*MeasuredData)(nil),            // 16: frustum.v1.MeasuredData
+	(*FitParameter)(nil),            // 17: frustum.v1.FitParameter
+	(*FitParameters)(nil),           // 18: frustum.v1.FitParameters
+	(*FittedParameter)(nil),         // 19: frustum.v1.FittedParameter
+	(*LinkCoefficients)(nil),        // 20: frustum.v1.LinkCoefficients
+	(*Correlation)(nil),             // 21: frustum.v1.Correlation
+	(*ModelFit)(nil),                // 22: frustum.v1.ModelFit
+	(*FitResult)(nil),               // 23: frustum.v1.FitResult
+	nil,                             // 24: frustum.v1.MagnetizationCurve.GroupsEntry
+	nil,                             // 25: frustum.v1.MagnetizationResult.GroupSaturationEntry
 }
 var file_frustum_v1_frustum_proto_depIdxs = []int32{
 	0,  // 0: frustum.v1.Cluster.sites:type_name -> frustum.v1.Site
@@ -1361,15 +2534,27 @@ var file_frustum_v1_frustum_proto_depIdxs = []int32{
 	9,  // 4: frustum.v1.SpectrumResult.levels:type_name -> frustum.v1.Level
 	8,  // 5: frustum.v1.SpectrumResult.engine:type_name -> frustum.v1.EngineReport
 	8,  // 6: frustum.v1.ThermoResult.engine:type_name -> frustum.v1.EngineReport
-	15, // 7: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
+	24, // 7: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
 	13, // 8: frustum.v1.MagnetizationResult.curves:type_name -> frustum.v1.MagnetizationCurve
 	8,  // 9: frustum.v1.MagnetizationResult.engine:type_name -> frustum.v1.EngineReport
-	12, // 10: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
-	11, // [11:11] is the sub-list for method output_type
-	11, // [11:11] is the sub-list for method input_type
-	11, // [11:11] is the sub-list for extension type_name
-	11, // [11:11] is the sub-list for extension extendee
-	0,  // [0:11] is the sub-list for field type_name
+	25, // 10: frustum.v1.MagnetizationResult.group_saturation:type_name -> frustum.v1.MagnetizationResult.GroupSaturationEntry
+	15, // 11: frustum.v1.MagnetizationResult.powder:type_name -> frustum.v1.PowderReport
+	16, // 12: frustum.v1.FitParameters.data:type_name -> frustum.v1.MeasuredData
+	3,  // 13: frustum.v1.FitParameters.models:type_name -> frustum.v1.Cluster
+	17, // 14: frustum.v1.FitParameters.vary:type_name -> frustum.v1.FitParameter
+	19, // 15: frustum.v1.ModelFit.parameters:type_name -> frustum.v1.FittedParameter
+	20, // 16: frustum.v1.ModelFit.links:type_name -> frustum.v1.LinkCoefficients
+	21, // 17: frustum.v1.ModelFit.correlations:type_name -> frustum.v1.Correlation
+	3,  // 18: frustum.v1.ModelFit.cluster:type_name -> frustum.v1.Cluster
+	8,  // 19: frustum.v1.ModelFit.engine:type_name -> frustum.v1.EngineReport
+	15, // 20: frustum.v1.ModelFit.powder:type_name -> frustum.v1.PowderReport
+	22, // 21: frustum.v1.FitResult.models:type_name -> frustum.v1.ModelFit
+	12, // 22: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
+	23, // [23:23] is the sub-list for method output_type
+	23, // [23:23] is the sub-list for method input_type
+	23, // [23:23] is the sub-list for extension type_name
+	23, // [23:23] is the sub-list for extension extendee
+	0,  // [0:23] is the sub-list for field type_name
 }
 
 func init() { file_frustum_v1_frustum_proto_init() }
@@ -1381,13 +2566,16 @@ func file_frustum_v1_frustum_proto_init() {
 	file_frustum_v1_frustum_proto_msgTypes[1].OneofWrappers = []any{}
 	file_frustum_v1_frustum_proto_msgTypes[7].OneofWrappers = []any{}
 	file_frustum_v1_frustum_proto_msgTypes[9].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[17].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[18].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[20].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_frustum_v1_frustum_proto_rawDesc), len(file_frustum_v1_frustum_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   16,
+			NumMessages:   26,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

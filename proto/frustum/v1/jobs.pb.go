@@ -86,7 +86,8 @@ func (Job_State) EnumDescriptor() ([]byte, []int) {
 	return file_frustum_v1_jobs_proto_rawDescGZIP(), []int{4, 0}
 }
 
-// JobSpec is one task on one cluster.
+// JobSpec is one task on one cluster (a fit takes its clusters in
+// fit.models and leaves cluster absent).
 type JobSpec struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
 	Cluster *Cluster               `protobuf:"bytes,1,opt,name=cluster,proto3" json:"cluster,omitempty"`
@@ -95,6 +96,7 @@ type JobSpec struct {
 	//	*JobSpec_Spectrum
 	//	*JobSpec_Thermo
 	//	*JobSpec_Magnetization
+	//	*JobSpec_Fit
 	Task          isJobSpec_Task `protobuf_oneof:"task"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -171,6 +173,15 @@ func (x *JobSpec) GetMagnetization() *MagnetizationParameters {
 	return nil
 }
 
+func (x *JobSpec) GetFit() *FitParameters {
+	if x != nil {
+		if x, ok := x.Task.(*JobSpec_Fit); ok {
+			return x.Fit
+		}
+	}
+	return nil
+}
+
 type isJobSpec_Task interface {
 	isJobSpec_Task()
 }
@@ -187,11 +198,17 @@ type JobSpec_Magnetization struct {
 	Magnetization *MagnetizationParameters `protobuf:"bytes,4,opt,name=magnetization,proto3,oneof"`
 }
 
+type JobSpec_Fit struct {
+	Fit *FitParameters `protobuf:"bytes,5,opt,name=fit,proto3,oneof"`
+}
+
 func (*JobSpec_Spectrum) isJobSpec_Task() {}
 
 func (*JobSpec_Thermo) isJobSpec_Task() {}
 
 func (*JobSpec_Magnetization) isJobSpec_Task() {}
+
+func (*JobSpec_Fit) isJobSpec_Task() {}
 
 // Progress of a running job.
 type JobProgress struct {
@@ -401,7 +418,7 @@ type Job struct {
 	RequestId string `protobuf:"bytes,3,opt,name=request_id,json=requestId,proto3" json:"request_id,omitempty"`
 	// spec as submitted (absent in lists and watches).
 	Spec *JobSpec `protobuf:"bytes,4,opt,name=spec,proto3" json:"spec,omitempty"`
-	// task is "spectrum", "thermo" or "magnetization".
+	// task is "spectrum", "thermo", "magnetization" or "fit".
 	Task       string                 `protobuf:"bytes,5,opt,name=task,proto3" json:"task,omitempty"`
 	State      Job_State              `protobuf:"varint,6,opt,name=state,proto3,enum=frustum.v1.Job_State" json:"state,omitempty"`
 	CreateTime *timestamppb.Timestamp `protobuf:"bytes,7,opt,name=create_time,json=createTime,proto3" json:"create_time,omitempty"`
@@ -431,6 +448,7 @@ type Job struct {
 	//	*Job_SpectrumResult
 	//	*Job_ThermoResult
 	//	*Job_MagnetizationResult
+	//	*Job_FitResult
 	Result        isJob_Result `protobuf_oneof:"result"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -619,6 +637,15 @@ func (x *Job) GetMagnetizationResult() *MagnetizationResult {
 	return nil
 }
 
+func (x *Job) GetFitResult() *FitResult {
+	if x != nil {
+		if x, ok := x.Result.(*Job_FitResult); ok {
+			return x.FitResult
+		}
+	}
+	return nil
+}
+
 type isJob_Result interface {
 	isJob_Result()
 }
@@ -635,11 +662,17 @@ type Job_MagnetizationResult struct {
 	MagnetizationResult *MagnetizationResult `protobuf:"bytes,20,opt,name=magnetization_result,json=magnetizationResult,proto3,oneof"`
 }
 
+type Job_FitResult struct {
+	FitResult *FitResult `protobuf:"bytes,21,opt,name=fit_result,json=fitResult,proto3,oneof"`
+}
+
 func (*Job_SpectrumResult) isJob_Result() {}
 
 func (*Job_ThermoResult) isJob_Result() {}
 
 func (*Job_MagnetizationResult) isJob_Result() {}
+
+func (*Job_FitResult) isJob_Result() {}
 
 type CreateJobRequest struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -1109,12 +1142,13 @@ var File_frustum_v1_jobs_proto protoreflect.FileDescriptor
 const file_frustum_v1_jobs_proto_rawDesc = "" +
 	"\n" +
 	"\x15frustum/v1/jobs.proto\x12\n" +
-	"frustum.v1\x1a\x18frustum/v1/frustum.proto\x1a\x1bgoogle/protobuf/empty.proto\x1a\x1fgoogle/protobuf/timestamp.proto\"\x83\x02\n" +
+	"frustum.v1\x1a\x18frustum/v1/frustum.proto\x1a\x1bgoogle/protobuf/empty.proto\x1a\x1fgoogle/protobuf/timestamp.proto\"\xb2\x02\n" +
 	"\aJobSpec\x12-\n" +
 	"\acluster\x18\x01 \x01(\v2\x13.frustum.v1.ClusterR\acluster\x12<\n" +
 	"\bspectrum\x18\x02 \x01(\v2\x1e.frustum.v1.SpectrumParametersH\x00R\bspectrum\x126\n" +
 	"\x06thermo\x18\x03 \x01(\v2\x1c.frustum.v1.ThermoParametersH\x00R\x06thermo\x12K\n" +
-	"\rmagnetization\x18\x04 \x01(\v2#.frustum.v1.MagnetizationParametersH\x00R\rmagnetizationB\x06\n" +
+	"\rmagnetization\x18\x04 \x01(\v2#.frustum.v1.MagnetizationParametersH\x00R\rmagnetization\x12-\n" +
+	"\x03fit\x18\x05 \x01(\v2\x19.frustum.v1.FitParametersH\x00R\x03fitB\x06\n" +
 	"\x04task\"\xa2\x01\n" +
 	"\vJobProgress\x12\x14\n" +
 	"\x05stage\x18\x01 \x01(\tR\x05stage\x12\x12\n" +
@@ -1129,7 +1163,7 @@ const file_frustum_v1_jobs_proto_rawDesc = "" +
 	"\x10field_violations\x18\x03 \x03(\v2\x1a.frustum.v1.FieldViolationR\x0ffieldViolations\"H\n" +
 	"\x0eFieldViolation\x12\x14\n" +
 	"\x05field\x18\x01 \x01(\tR\x05field\x12 \n" +
-	"\vdescription\x18\x02 \x01(\tR\vdescription\"\xe6\a\n" +
+	"\vdescription\x18\x02 \x01(\tR\vdescription\"\x9e\b\n" +
 	"\x03Job\x12\x12\n" +
 	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
 	"\x05owner\x18\x02 \x01(\tR\x05owner\x12\x1d\n" +
@@ -1156,7 +1190,9 @@ const file_frustum_v1_jobs_proto_rawDesc = "" +
 	"\x11result_size_bytes\x18\x11 \x01(\x03R\x0fresultSizeBytes\x12E\n" +
 	"\x0fspectrum_result\x18\x12 \x01(\v2\x1a.frustum.v1.SpectrumResultH\x00R\x0espectrumResult\x12?\n" +
 	"\rthermo_result\x18\x13 \x01(\v2\x18.frustum.v1.ThermoResultH\x00R\fthermoResult\x12T\n" +
-	"\x14magnetization_result\x18\x14 \x01(\v2\x1f.frustum.v1.MagnetizationResultH\x00R\x13magnetizationResult\"a\n" +
+	"\x14magnetization_result\x18\x14 \x01(\v2\x1f.frustum.v1.MagnetizationResultH\x00R\x13magnetizationResult\x126\n" +
+	"\n" +
+	"fit_result\x18\x15 \x01(\v2\x15.frustum.v1.FitResultH\x00R\tfitResult\"a\n" +
 	"\x05State\x12\x15\n" +
 	"\x11STATE_UNSPECIFIED\x10\x00\x12\n" +
 	"\n" +
@@ -1239,52 +1275,56 @@ var file_frustum_v1_jobs_proto_goTypes = []any{
 	(*SpectrumParameters)(nil),      // 16: frustum.v1.SpectrumParameters
 	(*ThermoParameters)(nil),        // 17: frustum.v1.ThermoParameters
 	(*MagnetizationParameters)(nil), // 18: frustum.v1.MagnetizationParameters
-	(*timestamppb.Timestamp)(nil),   // 19: google.protobuf.Timestamp
-	(*EngineReport)(nil),            // 20: frustum.v1.EngineReport
-	(*SpectrumResult)(nil),          // 21: frustum.v1.SpectrumResult
-	(*ThermoResult)(nil),            // 22: frustum.v1.ThermoResult
-	(*MagnetizationResult)(nil),     // 23: frustum.v1.MagnetizationResult
-	(*emptypb.Empty)(nil),           // 24: google.protobuf.Empty
+	(*FitParameters)(nil),           // 19: frustum.v1.FitParameters
+	(*timestamppb.Timestamp)(nil),   // 20: google.protobuf.Timestamp
+	(*EngineReport)(nil),            // 21: frustum.v1.EngineReport
+	(*SpectrumResult)(nil),          // 22: frustum.v1.SpectrumResult
+	(*ThermoResult)(nil),            // 23: frustum.v1.ThermoResult
+	(*MagnetizationResult)(nil),     // 24: frustum.v1.MagnetizationResult
+	(*FitResult)(nil),               // 25: frustum.v1.FitResult
+	(*emptypb.Empty)(nil),           // 26: google.protobuf.Empty
 }
 var file_frustum_v1_jobs_proto_depIdxs = []int32{
 	15, // 0: frustum.v1.JobSpec.cluster:type_name -> frustum.v1.Cluster
 	16, // 1: frustum.v1.JobSpec.spectrum:type_name -> frustum.v1.SpectrumParameters
 	17, // 2: frustum.v1.JobSpec.thermo:type_name -> frustum.v1.ThermoParameters
 	18, // 3: frustum.v1.JobSpec.magnetization:type_name -> frustum.v1.MagnetizationParameters
-	4,  // 4: frustum.v1.JobError.field_violations:type_name -> frustum.v1.FieldViolation
-	1,  // 5: frustum.v1.Job.spec:type_name -> frustum.v1.JobSpec
-	0,  // 6: frustum.v1.Job.state:type_name -> frustum.v1.Job.State
-	19, // 7: frustum.v1.Job.create_time:type_name -> google.protobuf.Timestamp
-	19, // 8: frustum.v1.Job.start_time:type_name -> google.protobuf.Timestamp
-	19, // 9: frustum.v1.Job.end_time:type_name -> google.protobuf.Timestamp
-	2,  // 10: frustum.v1.Job.progress:type_name -> frustum.v1.JobProgress
-	3,  // 11: frustum.v1.Job.error:type_name -> frustum.v1.JobError
-	20, // 12: frustum.v1.Job.plan:type_name -> frustum.v1.EngineReport
-	21, // 13: frustum.v1.Job.spectrum_result:type_name -> frustum.v1.SpectrumResult
-	22, // 14: frustum.v1.Job.thermo_result:type_name -> frustum.v1.ThermoResult
-	23, // 15: frustum.v1.Job.magnetization_result:type_name -> frustum.v1.MagnetizationResult
-	1,  // 16: frustum.v1.CreateJobRequest.spec:type_name -> frustum.v1.JobSpec
-	0,  // 17: frustum.v1.ListJobsRequest.state:type_name -> frustum.v1.Job.State
-	5,  // 18: frustum.v1.ListJobsResponse.jobs:type_name -> frustum.v1.Job
-	6,  // 19: frustum.v1.JobService.CreateJob:input_type -> frustum.v1.CreateJobRequest
-	7,  // 20: frustum.v1.JobService.GetJob:input_type -> frustum.v1.GetJobRequest
-	8,  // 21: frustum.v1.JobService.ListJobs:input_type -> frustum.v1.ListJobsRequest
-	10, // 22: frustum.v1.JobService.WatchJob:input_type -> frustum.v1.WatchJobRequest
-	11, // 23: frustum.v1.JobService.CancelJob:input_type -> frustum.v1.CancelJobRequest
-	12, // 24: frustum.v1.JobService.DeleteJob:input_type -> frustum.v1.DeleteJobRequest
-	13, // 25: frustum.v1.JobService.GetJobResult:input_type -> frustum.v1.GetJobResultRequest
-	5,  // 26: frustum.v1.JobService.CreateJob:output_type -> frustum.v1.Job
-	5,  // 27: frustum.v1.JobService.GetJob:output_type -> frustum.v1.Job
-	9,  // 28: frustum.v1.JobService.ListJobs:output_type -> frustum.v1.ListJobsResponse
-	5,  // 29: frustum.v1.JobService.WatchJob:output_type -> frustum.v1.Job
-	5,  // 30: frustum.v1.JobService.CancelJob:output_type -> frustum.v1.Job
-	24, // 31: frustum.v1.JobService.DeleteJob:output_type -> google.protobuf.Empty
-	14, // 32: frustum.v1.JobService.GetJobResult:output_type -> frustum.v1.ResultChunk
-	26, // [26:33] is the sub-list for method output_type
-	19, // [19:26] is the sub-list for method input_type
-	19, // [19:19] is the sub-list for extension type_name
-	19, // [19:19] is the sub-list for extension extendee
-	0,  // [0:19] is the sub-list for field type_name
+	19, // 4: frustum.v1.JobSpec.fit:type_name -> frustum.v1.FitParameters
+	4,  // 5: frustum.v1.JobError.field_violations:type_name -> frustum.v1.FieldViolation
+	1,  // 6: frustum.v1.Job.spec:type_name -> frustum.v1.JobSpec
+	0,  // 7: frustum.v1.Job.state:type_name -> frustum.v1.Job.State
+	20, // 8: frustum.v1.Job.create_time:type_name -> google.protobuf.Timestamp
+	20, // 9: frustum.v1.Job.start_time:type_name -> google.protobuf.Timestamp
+	20, // 10: frustum.v1.Job.end_time:type_name -> google.protobuf.Timestamp
+	2,  // 11: frustum.v1.Job.progress:type_name -> frustum.v1.JobProgress
+	3,  // 12: frustum.v1.Job.error:type_name -> frustum.v1.JobError
+	21, // 13: frustum.v1.Job.plan:type_name -> frustum.v1.EngineReport
+	22, // 14: frustum.v1.Job.spectrum_result:type_name -> frustum.v1.SpectrumResult
+	23, // 15: frustum.v1.Job.thermo_result:type_name -> frustum.v1.ThermoResult
+	24, // 16: frustum.v1.Job.magnetization_result:type_name -> frustum.v1.MagnetizationResult
+	25, // 17: frustum.v1.Job.fit_result:type_name -> frustum.v1.FitResult
+	1,  // 18: frustum.v1.CreateJobRequest.spec:type_name -> frustum.v1.JobSpec
+	0,  // 19: frustum.v1.ListJobsRequest.state:type_name -> frustum.v1.Job.State
+	5,  // 20: frustum.v1.ListJobsResponse.jobs:type_name -> frustum.v1.Job
+	6,  // 21: frustum.v1.JobService.CreateJob:input_type -> frustum.v1.CreateJobRequest
+	7,  // 22: frustum.v1.JobService.GetJob:input_type -> frustum.v1.GetJobRequest
+	8,  // 23: frustum.v1.JobService.ListJobs:input_type -> frustum.v1.ListJobsRequest
+	10, // 24: frustum.v1.JobService.WatchJob:input_type -> frustum.v1.WatchJobRequest
+	11, // 25: frustum.v1.JobService.CancelJob:input_type -> frustum.v1.CancelJobRequest
+	12, // 26: frustum.v1.JobService.DeleteJob:input_type -> frustum.v1.DeleteJobRequest
+	13, // 27: frustum.v1.JobService.GetJobResult:input_type -> frustum.v1.GetJobResultRequest
+	5,  // 28: frustum.v1.JobService.CreateJob:output_type -> frustum.v1.Job
+	5,  // 29: frustum.v1.JobService.GetJob:output_type -> frustum.v1.Job
+	9,  // 30: frustum.v1.JobService.ListJobs:output_type -> frustum.v1.ListJobsResponse
+	5,  // 31: frustum.v1.JobService.WatchJob:output_type -> frustum.v1.Job
+	5,  // 32: frustum.v1.JobService.CancelJob:output_type -> frustum.v1.Job
+	26, // 33: frustum.v1.JobService.DeleteJob:output_type -> google.protobuf.Empty
+	14, // 34: frustum.v1.JobService.GetJobResult:output_type -> frustum.v1.ResultChunk
+	28, // [28:35] is the sub-list for method output_type
+	21, // [21:28] is the sub-list for method input_type
+	21, // [21:21] is the sub-list for extension type_name
+	21, // [21:21] is the sub-list for extension extendee
+	0,  // [0:21] is the sub-list for field type_name
 }
 
 func init() { file_frustum_v1_jobs_proto_init() }
@@ -1297,12 +1337,14 @@ func file_frustum_v1_jobs_proto_init() {
 		(*JobSpec_Spectrum)(nil),
 		(*JobSpec_Thermo)(nil),
 		(*JobSpec_Magnetization)(nil),
+		(*JobSpec_Fit)(nil),
 	}
 	file_frustum_v1_jobs_proto_msgTypes[1].OneofWrappers = []any{}
 	file_frustum_v1_jobs_proto_msgTypes[4].OneofWrappers = []any{
 		(*Job_SpectrumResult)(nil),
 		(*Job_ThermoResult)(nil),
 		(*Job_MagnetizationResult)(nil),
+		(*Job_FitResult)(nil),
 	}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
