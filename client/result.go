@@ -18,6 +18,7 @@ var resultTypes = map[protoreflect.FullName]func() proto.Message{
 	(*frustumv1.SpectrumResult)(nil).ProtoReflect().Descriptor().FullName():      func() proto.Message { return new(frustumv1.SpectrumResult) },
 	(*frustumv1.ThermoResult)(nil).ProtoReflect().Descriptor().FullName():        func() proto.Message { return new(frustumv1.ThermoResult) },
 	(*frustumv1.MagnetizationResult)(nil).ProtoReflect().Descriptor().FullName(): func() proto.Message { return new(frustumv1.MagnetizationResult) },
+	(*frustumv1.FitResult)(nil).ProtoReflect().Descriptor().FullName():           func() proto.Message { return new(frustumv1.FitResult) },
 }
 
 // maxPrealloc bounds the buffer that Result allocates ahead from the total
@@ -26,7 +27,7 @@ const maxPrealloc = 64 << 20
 
 // Result fetches the result of a succeeded job with GetJobResult and returns
 // the result message: a *frustumv1.SpectrumResult, *ThermoResult or
-// *MagnetizationResult, by the type the chunks name. The chunks must come in
+// *MagnetizationResult or *FitResult, by the type the chunks name. The chunks must come in
 // order, without gaps or overlaps, with one type and one total size, and
 // add up to that size; otherwise Result returns a codes.DataLoss error.
 func (c *Client) Result(ctx context.Context, name string) (proto.Message, error) {
@@ -103,6 +104,9 @@ func InlineResult(job *frustumv1.Job) proto.Message {
 		return r
 	}
 	if r := job.GetMagnetizationResult(); r != nil {
+		return r
+	}
+	if r := job.GetFitResult(); r != nil {
 		return r
 	}
 	return nil

@@ -19,7 +19,7 @@ const cancelTimeout = 5 * time.Second
 
 // Run submits spec (see Create for requestID), watches the job, calling fn
 // (which may be nil) as Watch does, and returns its result: the
-// *frustumv1.SpectrumResult, *ThermoResult or *MagnetizationResult of the
+// *frustumv1.SpectrumResult, *ThermoResult, *MagnetizationResult or *FitResult of the
 // spec's task, taken from the finished job or fetched with Result when it
 // was too large to travel inline.
 //
@@ -107,6 +107,8 @@ func resultName(spec *frustumv1.JobSpec) protoreflect.FullName {
 		return (*frustumv1.ThermoResult)(nil).ProtoReflect().Descriptor().FullName()
 	case *frustumv1.JobSpec_Magnetization:
 		return (*frustumv1.MagnetizationResult)(nil).ProtoReflect().Descriptor().FullName()
+	case *frustumv1.JobSpec_Fit:
+		return (*frustumv1.FitResult)(nil).ProtoReflect().Descriptor().FullName()
 	}
 	return ""
 }

@@ -129,19 +129,36 @@ func setResult(job *frustumv1.Job, typeName string, data []byte) error {
 		r := new(frustumv1.MagnetizationResult)
 		job.Result = &frustumv1.Job_MagnetizationResult{MagnetizationResult: r}
 		return proto.Unmarshal(data, r)
+	case "frustum.v1.FitResult":
+		r := new(frustumv1.FitResult)
+		job.Result = &frustumv1.Job_FitResult{FitResult: r}
+		return proto.Unmarshal(data, r)
 	}
 	return fmt.Errorf("unknown result type %q", typeName)
 }
 
 // checkSize refuses, before any other work, a cluster with more sites than
 // the server takes or a Hilbert space beyond full diagonalization.
-func (s *Server) checkSize(c *frustumv1.Cluster) error {
+func (s *Server) checkSize(spec *frustumv1.JobSpec) error {
+	if fit := spec.GetFit(); fit != nil {
+		for k, c := range fit.GetModels() {
+			if err := s.checkClusterSize(c, fmt.Sprintf("spec.fit.models[%d].sites", k)); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	return s.checkClusterSize(spec.GetCluster(), "spec.cluster.sites")
+}
+
+// checkClusterSize is checkSize for one cluster at the given field path.
+func (s *Server) checkClusterSize(c *frustumv1.Cluster, field string) error {
 	n := len(c.GetSites())
 	if n > s.cfg.MaxSites {
 		msg := fmt.Sprintf("the cluster has %d sites; this server takes at most %d", n, s.cfg.MaxSites)
-		return statusError(codes.ResourceExhausted, "CLUSTER_TOO_LARGE", "spec.cluster.sites: "+msg,
+		return statusError(codes.ResourceExhausted, "CLUSTER_TOO_LARGE", field+": "+msg,
 			map[string]string{"sites": strconv.Itoa(n), "max_sites": strconv.Itoa(s.cfg.MaxSites)},
-			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: "spec.cluster.sites", Description: msg}}},
+			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: field, Description: msg}}},
 			&errdetails.QuotaFailure{Violations: []*errdetails.QuotaFailure_Violation{{Subject: "sites", Description: msg}}})
 	}
 	log2 := 0.0
@@ -158,9 +175,9 @@ func (s *Server) checkSize(c *frustumv1.Cluster) error {
 	}
 	if log2 >= 31 {
 		msg := fmt.Sprintf("%d sites give a Hilbert space of dimension 2^%.1f, beyond full diagonalization (fewer than 2^31 states)", n, log2)
-		return statusError(codes.ResourceExhausted, "CLUSTER_TOO_LARGE", "spec.cluster.sites: "+msg,
+		return statusError(codes.ResourceExhausted, "CLUSTER_TOO_LARGE", field+": "+msg,
 			map[string]string{"sites": strconv.Itoa(n), "log2_dimension": strconv.FormatFloat(log2, 'f', 1, 64)},
-			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: "spec.cluster.sites", Description: msg}}})
+			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: field, Description: msg}}})
 	}
 	return nil
 }
@@ -183,7 +200,7 @@ func (s *Server) CreateJob(ctx context.Context, req *frustumv1.CreateJobRequest)
 	if spec == nil {
 		return nil, badRequest("spec", "missing")
 	}
-	if err := s.checkSize(spec.GetCluster()); err != nil {
+	if err := s.checkSize(spec); err != nil {
 		return nil, err
 	}
 	plan, err := tasks.Plan(spec, s.planOptions())

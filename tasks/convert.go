@@ -2,6 +2,7 @@ package tasks
 
 import (
 	"fmt"
+	"maps"
 	"slices"
 
 	"google.golang.org/protobuf/proto"
@@ -75,9 +76,11 @@ func MagnetizationRequestFromProto(p *frustumv1.MagnetizationParameters) (ed.Mag
 		return ed.MagnetizationRequest{}, err
 	}
 	return ed.MagnetizationRequest{
-		Temperatures: slices.Clone(p.GetTemperatures()),
-		Fields:       slices.Clone(p.GetFields()),
-		Direction:    dir,
+		Temperatures:   slices.Clone(p.GetTemperatures()),
+		Fields:         slices.Clone(p.GetFields()),
+		Direction:      dir,
+		Powder:         int(p.GetPowder()),
+		Susceptibility: p.GetSusceptibility(),
 	}, nil
 }
 
@@ -85,9 +88,11 @@ func MagnetizationRequestFromProto(p *frustumv1.MagnetizationParameters) (ed.Mag
 // parameters.
 func MagnetizationParametersToProto(r ed.MagnetizationRequest) *frustumv1.MagnetizationParameters {
 	return &frustumv1.MagnetizationParameters{
-		Temperatures: slices.Clone(r.Temperatures),
-		Fields:       slices.Clone(r.Fields),
-		Direction:    vectorToProto(r.Direction),
+		Temperatures:   slices.Clone(r.Temperatures),
+		Fields:         slices.Clone(r.Fields),
+		Direction:      vectorToProto(r.Direction),
+		Powder:         int32(r.Powder),
+		Susceptibility: r.Susceptibility,
 	}
 }
 
@@ -250,12 +255,17 @@ func MagnetizationResultToProto(name string, r *ed.MagnetizationResult) *frustum
 		Curves:      make([]*frustumv1.MagnetizationCurve, len(r.Curves)),
 		Saturation:  r.Saturation,
 		Engine:      ReportToProto(r.Report),
+		Powder:      PowderToProto(r.Powder),
+	}
+	if len(r.GroupSaturation) > 0 {
+		out.GroupSaturation = maps.Clone(r.GroupSaturation)
 	}
 	for i, c := range r.Curves {
 		pc := &frustumv1.MagnetizationCurve{
-			Temperature:   c.Temperature,
-			Magnetization: slices.Clone(c.Magnetization),
-			Groups:        make(map[string]*frustumv1.GroupCurve, len(c.Groups)),
+			Temperature:    c.Temperature,
+			Magnetization:  slices.Clone(c.Magnetization),
+			Groups:         make(map[string]*frustumv1.GroupCurve, len(c.Groups)),
+			Susceptibility: slices.Clone(c.Susceptibility),
 		}
 		for g, v := range c.Groups {
 			pc.Groups[g] = &frustumv1.GroupCurve{Values: slices.Clone(v)}
@@ -277,12 +287,17 @@ func MagnetizationResultFromProto(p *frustumv1.MagnetizationResult) (string, *ed
 		Direction:  dir,
 		Saturation: p.GetSaturation(),
 		Report:     ReportFromProto(p.GetEngine()),
+		Powder:     PowderFromProto(p.GetPowder()),
+	}
+	if len(p.GetGroupSaturation()) > 0 {
+		out.GroupSaturation = maps.Clone(p.GetGroupSaturation())
 	}
 	for _, c := range p.GetCurves() {
 		curve := ed.Curve{
-			Temperature:   c.GetTemperature(),
-			Magnetization: slices.Clone(c.GetMagnetization()),
-			Groups:        make(map[string][]float64, len(c.GetGroups())),
+			Temperature:    c.GetTemperature(),
+			Magnetization:  slices.Clone(c.GetMagnetization()),
+			Groups:         make(map[string][]float64, len(c.GetGroups())),
+			Susceptibility: slices.Clone(c.GetSusceptibility()),
 		}
 		for g, v := range c.GetGroups() {
 			curve.Groups[g] = slices.Clone(v.GetValues())

@@ -3,6 +3,7 @@ package tasks
 import (
 	"encoding/json"
 	"maps"
+	"math"
 	"slices"
 	"strings"
 	"testing"
@@ -10,6 +11,7 @@ import (
 	"google.golang.org/protobuf/encoding/protojson"
 	"google.golang.org/protobuf/proto"
 
+	"frustum/compare"
 	"frustum/ed"
 	frustumv1 "frustum/proto/frustum/v1"
 )
@@ -73,11 +75,32 @@ func TestJSONFieldNames(t *testing.T) {
 		Field:  []float64{0, 1},
 		Curves: []ed.Curve{{Temperature: 2, Magnetization: []float64{0, 1}, Groups: map[string][]float64{"impurity": {0, 0.5}}}},
 	}))
-	wantKeys(t, "MagnetizationResult", mag, "clusterName", "field", "direction", "curves", "saturation", "engine")
+	// powder is null for one direction (an unset message field).
+	wantKeys(t, "MagnetizationResult", mag, "clusterName", "field", "direction", "curves", "saturation", "engine", "groupSaturation", "powder")
 	curve := object(t, firstOf(t, mag["curves"]))
-	wantKeys(t, "MagnetizationCurve", curve, "temperature", "magnetization", "groups")
+	wantKeys(t, "MagnetizationCurve", curve, "temperature", "magnetization", "groups", "susceptibility")
 	wantKeys(t, "groups", object(t, curve["groups"]), "impurity")
 	wantKeys(t, "GroupCurve", object(t, object(t, curve["groups"])["impurity"]), "values")
+
+	// The fit's contract: models[] with name, chiSquare, reducedChiSquare,
+	// aic, bic, parameters[] (name, value, error), the link coefficients
+	// and the curve at every point.
+	fit := keysOf(t, FitResultToProto(&compare.Result{
+		Observable: compare.Observable{Kind: compare.Polarization},
+		Data:       &compare.Data{Name: "d", Temperature: []float64{1}, Field: []float64{1}, Value: []float64{1}, ValueUnit: "1"},
+		Models: []compare.ModelResult{{Name: "m", Parameters: []compare.ParameterValue{{Name: "J", Value: 1, Error: 0.1, Unit: "K"}},
+			Links: []compare.Link{{Temperature: math.NaN(), Scale: 1}}, Curve: []float64{1}}},
+	}))
+	wantKeys(t, "FitResult", fit, "observable", "link", "dataName", "temperature", "field", "value", "sigma", "valueUnit",
+		"scaling", "scalingG", "models", "best", "warnings")
+	model := object(t, firstOf(t, fit["models"]))
+	for _, k := range []string{"name", "chiSquare", "reducedChiSquare", "aic", "bic", "parameters", "links", "curve"} {
+		if _, ok := model[k]; !ok {
+			t.Errorf("ModelFit lacks %q", k)
+		}
+	}
+	wantKeys(t, "FittedParameter", object(t, firstOf(t, model["parameters"])), "name", "value", "error", "unit", "paths", "atBound")
+	wantKeys(t, "LinkCoefficients", object(t, firstOf(t, model["links"])), "scale", "scaleError", "offset", "offsetError")
 }
 
 func TestMarshalJSONOptions(t *testing.T) {

@@ -20,7 +20,7 @@ const (
 )
 
 // TaskName returns the name of the task that spec asks for ("spectrum",
-// "thermo" or "magnetization"), or "" when it names none.
+// "thermo", "magnetization" or "fit"), or "" when it names none.
 func TaskName(spec *frustumv1.JobSpec) string {
 	switch spec.GetTask().(type) {
 	case *frustumv1.JobSpec_Spectrum:
@@ -29,6 +29,8 @@ func TaskName(spec *frustumv1.JobSpec) string {
 		return TaskThermo
 	case *frustumv1.JobSpec_Magnetization:
 		return TaskMagnetization
+	case *frustumv1.JobSpec_Fit:
+		return TaskFit
 	}
 	return ""
 }
@@ -51,6 +53,16 @@ func TaskName(spec *frustumv1.JobSpec) string {
 //
 // An *ed.LimitError passes through unchanged.
 func Plan(spec *frustumv1.JobSpec, opt ed.Options) (*frustumv1.EngineReport, error) {
+	if t, ok := spec.GetTask().(*frustumv1.JobSpec_Fit); ok {
+		if err := fitSpecError(spec); err != nil {
+			return nil, err
+		}
+		rep, err := PlanFit(t.Fit, opt)
+		if err != nil {
+			return nil, prefixFitError(err)
+		}
+		return rep, nil
+	}
 	task, m, err := specModel(spec)
 	if err != nil {
 		return nil, err
@@ -88,6 +100,16 @@ func Plan(spec *frustumv1.JobSpec, opt ed.Options) (*frustumv1.EngineReport, err
 // or Magnetization return for the same cluster and parameters. Its errors
 // are those of Plan, with the same paths, or ctx.Err() when ctx ends first.
 func Run(ctx context.Context, spec *frustumv1.JobSpec, opt ed.Options) (proto.Message, error) {
+	if t, ok := spec.GetTask().(*frustumv1.JobSpec_Fit); ok {
+		if err := fitSpecError(spec); err != nil {
+			return nil, err
+		}
+		res, err := Fit(ctx, t.Fit, opt)
+		if err != nil {
+			return nil, prefixFitError(err)
+		}
+		return res, nil
+	}
 	task, _, err := specModel(spec)
 	if err != nil {
 		return nil, err
@@ -123,7 +145,7 @@ func specModel(spec *frustumv1.JobSpec) (string, *cluster.Model, error) {
 	}
 	task := TaskName(spec)
 	if task == "" {
-		return "", nil, &ParameterError{Field: "spec.task", Reason: "no task: set one of spectrum, thermo or magnetization"}
+		return "", nil, &ParameterError{Field: "spec.task", Reason: "no task: set one of spectrum, thermo, magnetization or fit"}
 	}
 	if spec.GetCluster() == nil {
 		return task, nil, &ParameterError{Field: "spec.cluster", Reason: "missing"}

@@ -48,7 +48,7 @@ type task struct {
 	table, csv func(w io.Writer, res proto.Message) error
 }
 
-func tasksList() []*task { return []*task{spectrumTask, thermoTask, magnetizationTask} }
+func tasksList() []*task { return []*task{spectrumTask, thermoTask, magnetizationTask, fitTask} }
 
 func findTask(name string) *task {
 	for _, t := range tasksList() {
@@ -140,12 +140,17 @@ frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,
 
 var magnetizationTask = &task{
 	name:     "magnetization",
-	synopsis: "--cluster FILE --temps GRID --fields GRID [--direction x,y,z]",
+	synopsis: "--cluster FILE --temps GRID --fields GRID [--direction x,y,z | --powder N]",
 	about: `Prints magnetization curves M(B), one per temperature: the moment of the
 whole cluster along the field direction and that of each site group (the
 "group" tags of the cluster file), in mu_B per cluster, at each field
 magnitude B (T) along --direction. Negative fields point against the
 direction. Temperatures must be >= 0 K; 0 is the ground-state limit.
+
+With --powder N the curves are averages over at least N field directions of
+a quadrature rule on the sphere (the rule, the directions computed after the
+cluster's symmetry, and the deviation from the next coarser rule, a
+convergence estimate, are printed below the table).
 
 A GRID is a number (5), a list (1,2,5), a linear range with both ends
 included (0:15:61) or a logarithmic one (log:0.5:300:100).`,
@@ -158,14 +163,19 @@ frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:
 			fields       []float64
 			direction    [3]float64
 			hasDirection bool
+			powder       int
 		)
 		clusterFlag(fs, &path)
 		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
 		fs.funcFlag("fields", "field magnitudes in T along the direction, a `GRID` (required)", gridFlag(&fields))
 		fs.funcFlag("direction", "field direction `x,y,z`, any length but not zero (default 0,0,1)", vectorFlag("direction", &direction, &hasDirection, true))
+		fs.funcFlag("powder", "average over at least `N` field directions of a quadrature on the sphere (a powder)", powderFlag(&powder))
 		return func() (*frustumv1.JobSpec, error) {
 			if temps == nil {
 				return nil, usagef("--temps GRID is required")
+			}
+			if powder > 0 && hasDirection {
+				return nil, usagef("--powder averages over every direction: leave out --direction")
 			}
 			if fields == nil {
 				return nil, usagef("--fields GRID is required")
@@ -174,7 +184,7 @@ frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields}
+			p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields, Powder: int32(powder)}
 			if hasDirection {
 				p.Direction = direction[:]
 			}
@@ -276,6 +286,18 @@ func engineOf(m proto.Message) *frustumv1.EngineReport {
 		return r.GetEngine()
 	case *frustumv1.MagnetizationResult:
 		return r.GetEngine()
+	case *frustumv1.FitResult:
+		// The fit's own warnings and each model's, for stderr.
+		e := &frustumv1.EngineReport{Warnings: r.GetWarnings()}
+		for _, m := range r.GetModels() {
+			for _, w := range m.GetWarnings() {
+				e.Warnings = append(e.Warnings, m.GetName()+": "+w)
+			}
+			for _, w := range m.GetEngine().GetWarnings() {
+				e.Warnings = append(e.Warnings, m.GetName()+": "+w)
+			}
+		}
+		return e
 	}
 	return nil
 }

@@ -292,6 +292,14 @@ var requestFlags = map[string]string{
 	"temperatures": "--temps",
 	"fields":       "--fields",
 	"direction":    "--direction",
+	"powder":       "--powder",
+	// The fit's parameters.
+	"data":            "--data",
+	"observable":      "--observable",
+	"vary":            "--vary",
+	"link":            "--link",
+	"scaling_g":       "--scaling-g",
+	"max_evaluations": "--max-evaluations",
 }
 
 // describe turns an error into the message of the one line on stderr and the

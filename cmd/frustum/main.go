@@ -5,7 +5,9 @@
 //
 //	frustum spectrum      --cluster FILE [--field Bx,By,Bz] [--levels K]
 //	frustum thermo        --cluster FILE --temps GRID [--field Bx,By,Bz]
-//	frustum magnetization --cluster FILE --temps GRID --fields GRID [--direction x,y,z]
+//	frustum magnetization --cluster FILE --temps GRID --fields GRID [--direction x,y,z | --powder N]
+//	frustum fit --data FILE.csv --model FILE [--model FILE ...] [--observable polarization[:GROUP]]
+//	            [--vary 'NAME=PATH[,PATH...]:MIN:MAX' ...] [--link global|per-temperature] [--powder N]
 //	frustum submit TASK [the task's flags]
 //	frustum jobs [--state STATE] [--json]
 //	frustum job ID [--json]
@@ -88,6 +90,7 @@ func commands() []*command {
 		{name: "spectrum", summary: "energy levels at one field", run: runTask(spectrumTask)},
 		{name: "thermo", summary: "energy, specific heat, entropy, magnetization and susceptibility against temperature", run: runTask(thermoTask)},
 		{name: "magnetization", summary: "magnetization curves M(B), total and per site group, at several temperatures", run: runTask(magnetizationTask)},
+		{name: "fit", summary: "fit cluster models and free-spin baselines to measured data y(B, T) and compare them", run: runTask(fitTask)},
 		{name: "submit", summary: "start a task as a job on frustumd and print its name", run: runSubmit},
 		{name: "jobs", summary: "list your jobs on frustumd", run: runJobs},
 		{name: "job", summary: "show one job", run: runJob},

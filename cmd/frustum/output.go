@@ -226,6 +226,14 @@ func magnetizationTable(w io.Writer, r *frustumv1.MagnetizationResult) error {
 			return err
 		}
 	}
+	if p := r.GetPowder(); p != nil {
+		fmt.Fprintf(w, "\nPowder average: %s, %d directions (degree %d), %d computed after symmetry (%s).\n",
+			p.GetRule(), p.GetDirections(), p.GetDegree(), p.GetEvaluated(), p.GetSymmetry())
+		if p.GetCoarseDirections() > 0 {
+			fmt.Fprintf(w, "Convergence: largest deviation from %s (%d directions) %s mu_B, %.2g of saturation.\n",
+				p.GetCoarseRule(), p.GetCoarseDirections(), sig(p.GetDeviation(), 3), p.GetRelativeDeviation())
+		}
+	}
 	return report(w, r.GetEngine())
 }
 

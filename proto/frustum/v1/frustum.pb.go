@@ -1561,7 +1561,8 @@ type FitParameters struct {
 	//
 	//	"polarization[:GROUP]"          M/M_sat (of the cluster or a group)
 	//	"polarization-squared[:GROUP]"  (M/M_sat)^2
-	//	"fluctuation"                   k_B T chi / mu_B, in mu_B per cluster
+	//	"fluctuation"                   k_B T chi in mu_B^2 per cluster (that is
+	//	                                <M^2> - <M>^2 where M commutes with H)
 	//	"moment[:GROUP]"                M in mu_B
 	Observable string `protobuf:"bytes,3,opt,name=observable,proto3" json:"observable,omitempty"`
 	// vary: the parameters fitted, the same for every model that has their
