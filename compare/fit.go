@@ -600,22 +600,47 @@ func (f *fitter) solve(p *problem, start []float64) (*ModelResult, []float64, er
 			c, _, _ := p.chi2(p.toPhysical(u))
 			return c
 		}
-		settings := &optimize.Settings{
-			FuncEvaluations: f.maxEval,
-			Converger:       &optimize.FunctionConverge{Absolute: 1e-12, Relative: 1e-11, Iterations: 20 * (n + 1)},
+		// Converged: no decrease of chi-square beyond 1e-10 of it (or 1e-9
+		// absolute) for a few major iterations (two of Newton's, which
+		// converges quadratically; 10 (n+1) of Nelder-Mead's).
+		// Newton's method also stops once its own step would lower
+		// chi-square by less than a millionth of its value per point (a
+		// millionth of a standard deviation squared for weighted data): the
+		// finite-difference noise then dominates, and line searches fail.
+		npts := float64(f.req.Data.Len())
+		d := &derivatives{f: f, p: p}
+		settings := func(evals, iterations int) *optimize.Settings {
+			return &optimize.Settings{
+				FuncEvaluations: evals,
+				Converger: &stepConverge{perPoint: 1e-6, npts: npts, d: d,
+					fc: optimize.FunctionConverge{Absolute: 1e-9, Relative: 1e-10, Iterations: iterations}},
+			}
 		}
-		r, err := optimize.Minimize(optimize.Problem{Func: fn}, p.toInternal(theta), settings, &optimize.NelderMead{SimplexSize: 0.2})
+		// First Newton's method with the Gauss-Newton Hessian of the
+		// profiled chi-square (fast where the model is smooth), then, if it
+		// fails, Nelder-Mead from its best point (robust, derivative-free).
+		prob := optimize.Problem{Func: fn, Grad: d.grad, Hess: d.hess}
+		r, err := optimize.Minimize(prob, p.toInternal(theta), settings(f.maxEval/2, 2), &optimize.Newton{})
 		if p.err != nil {
 			return nil, nil, p.err
 		}
 		if r != nil && r.F <= best {
 			theta, best = p.toPhysical(r.X), r.F
 		}
-		if err != nil || r == nil || r.Status != optimize.FunctionConvergence {
-			mr.Converged = false
+		converged := err == nil && r != nil && r.Status == optimize.FunctionConvergence
+		if !converged && p.evals < f.maxEval {
+			r, err = optimize.Minimize(optimize.Problem{Func: fn}, p.toInternal(theta), settings(f.maxEval-p.evals, 10*(n+1)), &optimize.NelderMead{SimplexSize: 0.2})
+			if p.err != nil {
+				return nil, nil, p.err
+			}
+			if r != nil && r.F <= best {
+				theta, best = p.toPhysical(r.X), r.F
+			}
+			converged = err == nil && r != nil && r.Status == optimize.FunctionConvergence
 		}
-		// Gauss-Newton steps from the simplex's best point: quadratic
-		// convergence where the model is smooth, and a check of the optimum.
+		mr.Converged = converged
+		// Gauss-Newton steps from the best point: a check of the optimum,
+		// and the last digits where the model is smooth.
 		for it := 0; it < 4 && p.evals < f.maxEval+4*(2*n+1); it++ {
 			step, ok := f.gaussNewtonStep(p, theta)
 			if p.err != nil {
@@ -739,6 +764,155 @@ func (f *fitter) jacobian(p *problem, theta []float64, o []float64, links []Link
 		J.SetCol(j, c)
 	}
 	return J, qs
+}
+
+// stepConverge is FunctionConverge, and also success when the Newton step
+// from the location, -H^-1 g, would lower F by less than tol = perPoint *
+// max(F/npts, ...) (in units of chi-square).
+type stepConverge struct {
+	perPoint, npts float64
+	fc             optimize.FunctionConverge
+	// d holds the Hessian of the last gradient (gonum's Location carries
+	// the gradient only).
+	d *derivatives
+}
+
+func (c *stepConverge) Init(dim int) { c.fc.Init(dim) }
+
+func (c *stepConverge) Converged(l *optimize.Location) optimize.Status {
+	if l.Gradient != nil && c.d != nil && !c.d.fail && equalVec(c.d.at, l.X) {
+		var chol mat.Cholesky
+		if chol.Factorize(c.d.h) {
+			g := mat.NewVecDense(len(l.Gradient), append([]float64(nil), l.Gradient...))
+			var x mat.VecDense
+			if err := chol.SolveVecTo(&x, g); err == nil {
+				decrease := 0.5 * mat.Dot(g, &x)
+				scale := math.Max(l.F/math.Max(c.npts, 1), 1e-300)
+				if c.npts == 0 || decrease <= c.perPoint*scale {
+					return optimize.FunctionConvergence
+				}
+			}
+		}
+	}
+	return c.fc.Converged(l)
+}
+
+// derivatives gives gonum's Newton method the gradient 2 J_u^T r of the
+// profiled chi-square in the optimizer's variables u and its Gauss-Newton
+// Hessian 2 J_u^T (1 - P) J_u, where P projects onto the link columns
+// (variable projection: the links are solved at every point, so the
+// parameters' curvature is what remains after them). Grad and Hess at the
+// same u share one Jacobian.
+type derivatives struct {
+	f    *fitter
+	p    *problem
+	at   []float64
+	g    []float64
+	h    *mat.SymDense
+	fail bool
+}
+
+func (d *derivatives) compute(u []float64) {
+	if d.at != nil && equalVec(d.at, u) {
+		return
+	}
+	d.at = append(d.at[:0], u...)
+	f, p := d.f, d.p
+	n := len(u)
+	d.g, d.h, d.fail = make([]float64, n), mat.NewSymDense(n, nil), true
+	theta := p.toPhysical(u)
+	_, o, links := p.chi2(theta)
+	if p.err != nil || o == nil {
+		return
+	}
+	J, qs := f.jacobian(p, theta, o, links)
+	if J == nil {
+		return
+	}
+	rows, _ := J.Dims()
+	data := f.req.Data
+	r := make([]float64, rows)
+	for g, idx := range f.groups {
+		for _, i := range idx {
+			r[i] = (data.Value[i] - links[g].Scale*o[i] - links[g].Offset) / f.sigma[i]
+		}
+	}
+	var pcols, lcols []int
+	for j, q := range qs {
+		if q.param >= 0 {
+			pcols = append(pcols, j)
+		} else {
+			lcols = append(lcols, j)
+		}
+	}
+	// d theta / d u of each parameter.
+	chain := make([]float64, n)
+	for i, x := range u {
+		switch {
+		case p.hasLo[i] && p.hasHi[i]:
+			chain[i] = (p.hi[i] - p.lo[i]) * math.Cos(x) / 2
+		case p.hasLo[i]:
+			chain[i] = p.scale[i] * x / math.Sqrt(x*x+1)
+		case p.hasHi[i]:
+			chain[i] = -p.scale[i] * x / math.Sqrt(x*x+1)
+		default:
+			chain[i] = p.scale[i]
+		}
+	}
+	Jp := mat.NewDense(rows, n, nil)
+	for k, j := range pcols {
+		for i := 0; i < rows; i++ {
+			Jp.Set(i, k, J.At(i, j)*chain[qs[j].param])
+		}
+	}
+	L := mat.NewDense(rows, len(lcols), nil)
+	for k, j := range lcols {
+		for i := 0; i < rows; i++ {
+			L.Set(i, k, J.At(i, j))
+		}
+	}
+	var X, proj mat.Dense
+	if err := X.Solve(L, Jp); err == nil {
+		proj.Mul(L, &X)
+		Jp.Sub(Jp, &proj)
+	}
+	for a := 0; a < n; a++ {
+		ga := 0.0
+		for i := 0; i < rows; i++ {
+			ga += 2 * Jp.At(i, a) * r[i]
+		}
+		d.g[a] = ga
+		for b := a; b < n; b++ {
+			h := 0.0
+			for i := 0; i < rows; i++ {
+				h += 2 * Jp.At(i, a) * Jp.At(i, b)
+			}
+			d.h.SetSym(a, b, h)
+		}
+	}
+	d.fail = false
+}
+
+func (d *derivatives) grad(grad, u []float64) {
+	d.compute(u)
+	copy(grad, d.g)
+}
+
+func (d *derivatives) hess(hess *mat.SymDense, u []float64) {
+	d.compute(u)
+	hess.CopySym(d.h)
+}
+
+func equalVec(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // gaussNewtonStep returns the Gauss-Newton step of the physical parameters
