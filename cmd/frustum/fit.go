@@ -238,7 +238,7 @@ func fitTable(w io.Writer, r *frustumv1.FitResult) error {
 	for _, m := range r.GetModels() {
 		bestAIC = math.Min(bestAIC, m.GetAic())
 	}
-	t := &table{header: []string{"model", "chi2", "dof", "chi2/dof", "AIC", "BIC", "dAIC"}}
+	t := &table{header: []string{"model", "chi2", "dof", "chi2/dof", "AIC", "BIC", "dAIC"}, leftFirst: true}
 	for _, m := range r.GetModels() {
 		t.add(m.GetName(), sig(m.GetChiSquare(), 6), strconv.Itoa(int(m.GetDegreesOfFreedom())), sig(m.GetReducedChiSquare(), 4),
 			sig(m.GetAic(), 6), sig(m.GetBic(), 6), fixed(m.GetAic()-bestAIC, 1))

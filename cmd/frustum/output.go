@@ -24,6 +24,8 @@ type table struct {
 	header []string
 	rows   [][]string
 	left   bool
+	// leftFirst left-aligns the first column only (names before numbers).
+	leftFirst bool
 }
 
 func (t *table) add(cells ...string) { t.rows = append(t.rows, cells) }
@@ -56,7 +58,12 @@ func (t *table) write(w io.Writer) error {
 		b.WriteString(" ")
 		for i, c := range cells {
 			b.WriteString("  ")
-			b.WriteString(strings.Repeat(" ", width[i]-utf8.RuneCountInString(c)))
+			pad := strings.Repeat(" ", width[i]-utf8.RuneCountInString(c))
+			if t.leftFirst && i == 0 {
+				b.WriteString(c + pad)
+				continue
+			}
+			b.WriteString(pad)
 			b.WriteString(c)
 		}
 		b.WriteString("\n")
