@@ -14,6 +14,7 @@
 //	frustum watch ID
 //	frustum cancel ID
 //	frustum delete ID
+//	frustum plot (--input RESULT.json | --job ID | zeeman --cluster FILE --fields GRID) --out FILE.png|FILE.svg
 //	frustum demo
 //	frustum version
 //	frustum help [COMMAND]
@@ -97,6 +98,7 @@ func commands() []*command {
 		{name: "watch", summary: "follow a job's progress until it ends", run: runWatch},
 		{name: "cancel", summary: "cancel a queued or running job", run: runCancel},
 		{name: "delete", summary: "delete a job that has ended, and its result", run: runDelete},
+		{name: "plot", summary: "draw a result as a PNG or SVG figure, or the Zeeman level diagram of a cluster", run: runPlot},
 		{name: "demo", summary: "the defect-multimer scenario of an invented compound", run: runDemo},
 		{name: "version", summary: "the program version and the dense eigensolver backend", run: runVersion},
 	}
