@@ -104,11 +104,14 @@ type MagnetizationRequest struct {
 	Fields       []float64  // field magnitudes in T along Direction
 	Direction    [3]float64 // any non-zero vector; zero means z
 	// Susceptibility asks for dM/dB along the field at every point as well
-	// (isothermal, with the Van Vleck part), in mu_B/T per cluster.
+	// (isothermal, with the Van Vleck part), in mu_B/T per cluster. At
+	// T = 0 it is reported as 0: the zero-temperature derivative away from
+	// level crossings (at a crossing M jumps).
 	Susceptibility bool
 	// Powder > 0 asks for the powder average over the field directions of a
 	// quadrature rule on the sphere with at least Powder points (the rule
-	// chosen is reported); Direction must then be zero.
+	// chosen is reported; at most sphere.MaxPoints); Direction must then be
+	// zero. Negative is refused.
 	Powder int
 }
 
@@ -125,7 +128,8 @@ type Curve struct {
 
 // MagnetizationResult holds one curve per temperature.
 type MagnetizationResult struct {
-	Field      []float64
+	Field []float64
+	// Direction is the unit field direction; zero for a powder average.
 	Direction  [3]float64
 	Curves     []Curve
 	Saturation float64 // sum_i |g_i^T n| S_i, mu_B (powder: its average)
@@ -142,9 +146,13 @@ type PowderReport struct {
 	Rule       string // for example "Lebedev 26"
 	Directions int    // points of the rule
 	Degree     int    // highest degree of polynomials on the sphere integrated exactly
-	Evaluated  int    // distinct directions computed after the symmetry reduction
-	Symmetry   string // what reduced the directions, for example "time reversal (n ~ -n)"
-	// The same average with the next coarser rule: the convergence estimate.
+	// Evaluated is the number of distinct directions computed after the
+	// symmetry reduction, those that only the coarser rule needs included.
+	Evaluated int
+	Symmetry  string // what reduced the directions, for example "time reversal (n ~ -n)"
+	// The same average with the next coarser rule (of lower degree): the
+	// convergence estimate. CoarseRule is "none" (and CoarseDirections 0)
+	// for the 6-point rule, which has no coarser one.
 	CoarseRule       string
 	CoarseDirections int
 	// Deviation is max |M_rule - M_coarse| over every point of every curve

@@ -22,15 +22,56 @@ import (
 //
 // with Z_s(T) the partition function of sector s about its lowest energy e0_s.
 // Otherwise each field is diagonalized (in S^z sectors where they survive).
+//
+// With req.Susceptibility every curve also carries chi = dM/dB along the
+// field (isothermal, mu_B/T per cluster), exactly: on the first route
+// chi = (mu_B/k_B) m^2 Var(S^z)/T from the same sector sums, on the second the
+// Kubo sum with its Van Vleck part (see Thermo) from the moment's matrix
+// elements between the eigenstates at each field. At T = 0 chi is reported
+// as 0, the zero-temperature derivative away from level crossings (at a
+// crossing M jumps and dM/dB is not defined).
+//
+// With req.Powder > 0 the curves, the group moments, chi, Saturation and
+// GroupSaturation are powder averages over the directions of a quadrature
+// rule on the sphere (see PowderReport and powder.go); req.Direction must be
+// zero then, and the result's Direction is zero.
 func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options) (*MagnetizationResult, error) {
-	p, err := planMagnetization(m, req, opt)
+	return magnetization(ctx, m, req, opt, true)
+}
+
+// magnetization is Magnetization with the powder average's symmetry reduction
+// switchable: reduce = false evaluates every direction of the rule (tests).
+func magnetization(ctx context.Context, m *cluster.Model, req MagnetizationRequest, opt Options, reduce bool) (*MagnetizationResult, error) {
+	if err := checkMagnetization(m, req); err != nil {
+		return nil, err
+	}
+	if req.Powder > 0 {
+		pp, err := planPowder(m, req, opt, reduce)
+		if err != nil {
+			return nil, err
+		}
+		return runPowder(ctx, pp, req, opt)
+	}
+	n, _ := unit(req.Direction)
+	p, err := planDirection(m, req, n, opt)
 	if err != nil {
 		return nil, err
 	}
+	return runDirection(ctx, p, req, opt)
+}
+
+// runDirection runs the plan of one field direction p.direction.
+func runDirection(ctx context.Context, p *taskPlan, req MagnetizationRequest, opt Options) (*MagnetizationResult, error) {
 	opt.Workers = p.workers
 	st, n := p.st, p.direction
 	nb, ng := len(req.Fields), len(st.groups)
 	res := &MagnetizationResult{Field: append([]float64(nil), req.Fields...), Direction: n, Saturation: st.saturation}
+	if ng > 0 {
+		res.GroupSaturation = map[string]float64{}
+		for g, name := range st.groups {
+			res.GroupSaturation[name] = st.groupSaturation[g]
+		}
+	}
 	for _, T := range req.Temperatures {
 		c := Curve{Temperature: T, Magnetization: make([]float64, nb)}
 		if ng > 0 {
@@ -39,8 +80,12 @@ func Magnetization(ctx context.Context, m *cluster.Model, req MagnetizationReque
 				c.Groups[g] = make([]float64, nb)
 			}
 		}
+		if req.Susceptibility {
+			c.Susceptibility = make([]float64, nb)
+		}
 		res.Curves = append(res.Curves, c)
 	}
+	var err error
 	if p.analytic {
 		err = magnetizationShortcut(ctx, p, req, opt, res)
 	} else {
@@ -143,6 +188,7 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 		}
 		curve := &res.Curves[ti]
 		a := make([]float64, len(secs))
+		pz := make([]float64, len(secs))
 		for bi, B := range req.Fields {
 			h := MuBOverKB * B * st.mz
 			lo := math.Inf(1)
@@ -156,19 +202,32 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 				var p float64
 				if T == 0 {
 					if a[si]-lo > tol {
+						pz[si] = 0
 						continue
 					}
 					p = math.Exp(logZ[si])
 				} else {
 					p = math.Exp(-(a[si]-lo)/T + logZ[si])
 				}
+				pz[si] = p
 				z += p
 				sz += p * float64(s.twoSz) / 2
 				for g := range gm {
 					gm[g] += p * gavg[si][g]
 				}
 			}
-			curve.Magnetization[bi] = st.mz * sz / z
+			mean := sz / z
+			curve.Magnetization[bi] = st.mz * mean
+			if curve.Susceptibility != nil && T > 0 {
+				// S^z is constant on a sector: Var(S^z) is the spread of
+				// the sectors' S^z, summed about the mean.
+				v := 0.0
+				for si, s := range secs {
+					d := float64(s.twoSz)/2 - mean
+					v += pz[si] * d * d
+				}
+				curve.Susceptibility[bi] = MuBOverKB * st.mz * st.mz * (v / z) / T
+			}
 			for g, name := range st.groups {
 				curve.Groups[name][bi] = gm[g] / z
 			}
@@ -186,6 +245,10 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 		B := req.Fields[bi]
 		op := st.hamiltonian(B)
 		secs := make([]sectorStates, len(bs.sectors))
+		var kubo []kuboSums
+		if req.Susceptibility {
+			kubo = make([]kuboSums, len(bs.sectors))
+		}
 		var all []float64
 		for si, sec := range bs.sectors {
 			if err := ctx.Err(); err != nil {
@@ -195,7 +258,19 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 			if err != nil {
 				return err
 			}
-			s := sectorStates{twoSz: sec.twoSz, e: sp.values, moment: expectations(st.sys, bs, sp, st.moment)}
+			s := sectorStates{twoSz: sec.twoSz, e: sp.values}
+			if req.Susceptibility {
+				m2, err := momentMatrix(ctx, st.sys, bs, sp, st.moment)
+				if err != nil {
+					return err
+				}
+				s.moment = m2.diag
+				if kubo[si], err = sectorKubo(ctx, sp.values, m2, req.Temperatures); err != nil {
+					return err
+				}
+			} else {
+				s.moment = expectations(st.sys, bs, sp, st.moment)
+			}
 			for _, g := range st.groupMoment {
 				s.groups = append(s.groups, expectations(st.sys, bs, sp, g))
 			}
@@ -227,6 +302,9 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 			for g, name := range st.groups {
 				res.Curves[ti].Groups[name][bi] = gm[g] / z
 			}
+			if kubo != nil && T > 0 {
+				_, res.Curves[ti].Susceptibility[bi] = kuboMoment(kubo, emin, ti, T)
+			}
 		}
 		return nil
 	})
@@ -237,35 +315,47 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 	return nil
 }
 
-// planMagnetization validates the request and plans the magnetization task.
-func planMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) (*taskPlan, error) {
+// checkMagnetization validates the model and the request.
+func checkMagnetization(m *cluster.Model, req MagnetizationRequest) error {
 	if err := checkModel(m); err != nil {
-		return nil, err
+		return err
 	}
 	if err := checkVector("direction", req.Direction); err != nil {
-		return nil, err
+		return err
 	}
 	if err := checkTemperatures(req.Temperatures, true); err != nil {
-		return nil, err
+		return err
 	}
 	if len(req.Fields) == 0 {
-		return nil, &RequestError{Field: "fields", Reason: "no fields given"}
+		return &RequestError{Field: "fields", Reason: "no fields given"}
 	}
 	for i, b := range req.Fields {
 		if math.IsNaN(b) || math.IsInf(b, 0) {
-			return nil, &RequestError{Field: fmt.Sprintf("fields[%d]", i), Reason: fmt.Sprintf("%v is not a finite number", b)}
+			return &RequestError{Field: fmt.Sprintf("fields[%d]", i), Reason: fmt.Sprintf("%v is not a finite number", b)}
 		}
 	}
-	n, _ := unit(req.Direction)
+	switch {
+	case req.Powder < 0:
+		return &RequestError{Field: "powder", Reason: fmt.Sprintf("%d directions: must be 0 (one direction) or more", req.Powder)}
+	case req.Powder > 0 && req.Direction != [3]float64{}:
+		return &RequestError{Field: "direction", Reason: fmt.Sprintf("%v given with a powder average over %d directions: give one or the other", req.Direction, req.Powder)}
+	}
+	return nil
+}
+
+// planDirection plans the magnetization task along the unit direction n; the
+// request must have passed checkMagnetization.
+func planDirection(m *cluster.Model, req MagnetizationRequest, n [3]float64, opt Options) (*taskPlan, error) {
 	st := newSetup(m, n, true)
 	p := &taskPlan{st: st, analytic: st.uniform, direction: n, op: st.h0}
 	var w workload
 	if p.analytic {
 		w = newWorkload(st, opt, len(st.groups) > 0, false, false, 1)
 		p.isReal = st.h0.isReal()
-		p.rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
 	} else {
-		w = newWorkload(st, opt, true, false, true, len(req.Fields))
+		// The susceptibility needs the moment's matrix elements between
+		// the eigenstates of each field (kubo).
+		w = newWorkload(st, opt, true, req.Susceptibility, true, len(req.Fields))
 		p.isReal = st.real
 	}
 	w.complex = !p.isReal
@@ -273,24 +363,43 @@ func planMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) 
 	if err != nil {
 		return nil, err
 	}
-	route := p.rep.Route
 	p.rep = w.report(st, mem)
 	p.workers = workers
-	p.rep.Route = route
-	if !p.analytic {
+	if p.analytic {
+		p.rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
+		if req.Susceptibility {
+			p.rep.Route += ", chi from the S^z fluctuations"
+		}
+	} else {
 		why := "the Zeeman term does not commute with the field-free part"
 		if st.conserveSz {
 			why = "the sites' effective g values along the field differ"
 		}
 		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (" + why + "), moments from eigenvectors"
+		if req.Susceptibility {
+			p.rep.Route += ", chi with its Van Vleck part"
+		}
 	}
 	return p, nil
 }
 
 // PlanMagnetization returns what Magnetization would do without
-// diagonalizing anything, or the error it would return before starting.
+// diagonalizing anything, or the error it would return before starting. For
+// a powder average it chooses the rule and reduces its directions by
+// symmetry as Magnetization does, and reports the largest per-direction plan.
 func PlanMagnetization(m *cluster.Model, req MagnetizationRequest, opt Options) (Report, error) {
-	p, err := planMagnetization(m, req, opt)
+	if err := checkMagnetization(m, req); err != nil {
+		return Report{}, err
+	}
+	if req.Powder > 0 {
+		pp, err := planPowder(m, req, opt, true)
+		if err != nil {
+			return Report{}, err
+		}
+		return pp.rep, nil
+	}
+	n, _ := unit(req.Direction)
+	p, err := planDirection(m, req, n, opt)
 	if err != nil {
 		return Report{}, err
 	}

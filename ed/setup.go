@@ -41,8 +41,10 @@ type setup struct {
 	mz      float64
 	// real: every sector matrix is real symmetric for every field.
 	real bool
-	// saturation = sum_i |m_i| S_i (mu_B).
-	saturation float64
+	// saturation = sum_i |m_i| S_i (mu_B); groupSaturation[g] is the same
+	// sum over the sites of group g.
+	saturation      float64
+	groupSaturation []float64
 }
 
 // newSetup analyses model for a field along the unit vector n. When withField
@@ -76,15 +78,9 @@ func newSetup(model *cluster.Model, n [3]float64, withField bool) *setup {
 	st.h0 = h0
 	st.flipSymmetric = st.flipSymmetric && h0.conservesSz()
 
-	m := make([][3]float64, N)
-	for i, s := range model.Sites {
-		for nu := 0; nu < 3; nu++ {
-			for mu := 0; mu < 3; mu++ {
-				m[i][nu] += n[mu] * s.G[3*mu+nu]
-			}
-		}
-		st.saturation += norm3(m[i]) * s.Spin()
-	}
+	m := siteFields(model, n)
+	st.groups = model.Groups()
+	st.saturation, st.groupSaturation = saturations(model, st.groups, m)
 	if st.su2 && withField {
 		if u, ok := commonAxis(m); ok {
 			st.rotated = true
@@ -98,7 +94,6 @@ func newSetup(model *cluster.Model, n [3]float64, withField bool) *setup {
 	for i := range m {
 		st.moment.addSiteVector(N, i, m[i])
 	}
-	st.groups = model.Groups()
 	for _, g := range st.groups {
 		op := &operator{}
 		for i, s := range model.Sites {
@@ -124,6 +119,35 @@ func newSetup(model *cluster.Model, n [3]float64, withField bool) *setup {
 		st.uniform = st.conserveSz
 	}
 	return st
+}
+
+// siteFields returns m_i = g_i^T n for every site: M_n = sum_i m_i . S_i.
+func siteFields(model *cluster.Model, n [3]float64) [][3]float64 {
+	m := make([][3]float64, len(model.Sites))
+	for i, s := range model.Sites {
+		for nu := 0; nu < 3; nu++ {
+			for mu := 0; mu < 3; mu++ {
+				m[i][nu] += n[mu] * s.G[3*mu+nu]
+			}
+		}
+	}
+	return m
+}
+
+// saturations returns sum_i |m_i| S_i over every site and over the sites of
+// each of groups (mu_B).
+func saturations(model *cluster.Model, groups []string, m [][3]float64) (total float64, perGroup []float64) {
+	perGroup = make([]float64, len(groups))
+	for i, s := range model.Sites {
+		x := norm3(m[i]) * s.Spin()
+		total += x
+		for g, name := range groups {
+			if s.Group == name {
+				perGroup[g] += x
+			}
+		}
+	}
+	return total, perGroup
 }
 
 // hamiltonian returns H(B) = H0 - MuBOverKB * B * M_n.

@@ -28,7 +28,9 @@ import (
 //
 //	chi = (mu_B/k_B) [ sum_{v,w} |M_vw|^2 (p_v - p_w)/(E_w - E_v) - <M>^2/T ],
 //
-// the degenerate terms taken as their limit p_v/T. When M_n is proportional
+// the degenerate terms taken as their limit p_v/T; it is summed as the
+// variance of the diagonal elements over T plus the non-negative pair terms
+// (kuboMoment), so nothing cancels. When M_n is proportional
 // to the conserved total S^z this reduces to (mu_B/k_B) m^2 Var(S^z)/T, which
 // is used without eigenvectors.
 func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Options) (*ThermoResult, error) {
@@ -47,14 +49,9 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 	h := MuBOverKB * B * st.mz
 
 	// Per sector: eigenvalues (with the analytic Zeeman shift when uniform)
-	// and, for the Kubo route, per-temperature sums about the sector's
-	// lowest energy e0: Z_s, sum p M_vv, and the Kubo double sum.
-	type sectorSums struct {
-		e0         float64
-		z, mom, kb []float64
-	}
+	// and, for the Kubo route, the per-temperature sums of kuboSums.
 	energies := make([][]float64, len(bs.sectors))
-	sums := make([]sectorSums, len(bs.sectors))
+	sums := make([]kuboSums, len(bs.sectors))
 	src := bs.mirrorSources(st.flipSymmetric && !kubo)
 	solve := solvedSectors(src)
 	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
@@ -64,8 +61,7 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 		if err != nil {
 			return err
 		}
-		e := sp.values
-		energies[i] = e
+		energies[i] = sp.values
 		if !kubo {
 			return nil
 		}
@@ -73,43 +69,8 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 		if err != nil {
 			return err
 		}
-		s := sectorSums{e0: e[0], z: make([]float64, nt), mom: make([]float64, nt), kb: make([]float64, nt)}
-		dim := len(e)
-		p := make([]float64, dim)
-		for ti, T := range req.Temperatures {
-			if err := ctx.Err(); err != nil {
-				return err
-			}
-			for v := range e {
-				p[v] = math.Exp(-(e[v] - s.e0) / T)
-				s.z[ti] += p[v]
-				s.mom[ti] += p[v] * m2.diag[v]
-			}
-			k := 0.0
-			for v := 0; v < dim; v++ {
-				if p[v] == 0 {
-					continue
-				}
-				row := m2.abs2[v*dim : (v+1)*dim]
-				k += p[v] * row[v] / T
-				pair := 0.0
-				for u := v + 1; u < dim; u++ {
-					if row[u] == 0 {
-						continue
-					}
-					d := e[u] - e[v]
-					if d <= 0 {
-						pair += row[u] / T
-					} else {
-						pair += row[u] * (-math.Expm1(-d / T)) / d
-					}
-				}
-				k += 2 * p[v] * pair
-			}
-			s.kb[ti] = k
-		}
-		sums[i] = s
-		return nil
+		sums[i], err = sectorKubo(ctx, sp.values, m2, req.Temperatures)
+		return err
 	})
 	if err != nil {
 		return nil, err
@@ -168,16 +129,7 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 			res.Magnetization[ti] = st.mz * szMean
 			res.Susceptibility[ti] = MuBOverKB * st.mz * st.mz * (szVar / z) / T
 		} else {
-			var zz, mom, kb float64
-			for _, s := range sums {
-				f := math.Exp(-(s.e0 - emin) / T)
-				zz += f * s.z[ti]
-				mom += f * s.mom[ti]
-				kb += f * s.kb[ti]
-			}
-			mm := mom / zz
-			res.Magnetization[ti] = mm
-			res.Susceptibility[ti] = MuBOverKB * (kb/zz - mm*mm/T)
+			res.Magnetization[ti], res.Susceptibility[ti] = kuboMoment(sums, emin, ti, T)
 		}
 		if B == 0 {
 			// Time reversal: no moment without a field.
@@ -235,6 +187,106 @@ func thermoRoute(st *setup, B float64) string {
 	return spectrumRoute(st, B, false) + "; M and chi from eigenvectors, chi with its Van Vleck part"
 }
 
+// kuboSums are one sector's Boltzmann sums about its lowest energy e0, one
+// entry per temperature T: with p_v = exp(-(E_v - e0)/T) and M_vw the moment's
+// matrix elements between the sector's eigenstates,
+//
+//	z    = sum_v p_v
+//	mom  = sum_v p_v M_vv
+//	dev2 = sum_v p_v (M_vv - mom/z)^2
+//	kb   = sum_{v != w} |M_vw|^2 (p_v - p_w)/(E_w - E_v)
+//	     = 2 sum_{v<w} |M_vw|^2 p_v (1 - e^{-(E_w - E_v)/T})/(E_w - E_v),
+//
+// degenerate pairs taken as their limit p_v/T (expm1 keeps the near-degenerate
+// ones exact). Every term is non-negative, so the susceptibility assembled
+// from them (kuboMoment) has no cancellation. Entries at T = 0 are left 0.
+type kuboSums struct {
+	e0               float64
+	z, mom, dev2, kb []float64
+}
+
+// sectorKubo returns the kuboSums of a sector with ascending eigenvalues e and
+// moment elements m2, at every temperature of temps.
+func sectorKubo(ctx context.Context, e []float64, m2 momentElements, temps []float64) (kuboSums, error) {
+	nt := len(temps)
+	s := kuboSums{e0: e[0], z: make([]float64, nt), mom: make([]float64, nt), dev2: make([]float64, nt), kb: make([]float64, nt)}
+	dim := len(e)
+	p := make([]float64, dim)
+	for ti, T := range temps {
+		if err := ctx.Err(); err != nil {
+			return s, err
+		}
+		if T == 0 {
+			continue
+		}
+		for v := range e {
+			p[v] = math.Exp(-(e[v] - s.e0) / T)
+			s.z[ti] += p[v]
+			s.mom[ti] += p[v] * m2.diag[v]
+		}
+		mean := s.mom[ti] / s.z[ti]
+		k := 0.0
+		for v := 0; v < dim; v++ {
+			if p[v] == 0 {
+				continue
+			}
+			d := m2.diag[v] - mean
+			s.dev2[ti] += p[v] * d * d
+			row := m2.abs2[v*dim : (v+1)*dim]
+			pair := 0.0
+			for u := v + 1; u < dim; u++ {
+				if row[u] == 0 {
+					continue
+				}
+				d := e[u] - e[v]
+				if d <= 0 {
+					pair += row[u] / T
+				} else {
+					pair += row[u] * (-math.Expm1(-d / T)) / d
+				}
+			}
+			k += 2 * p[v] * pair
+		}
+		s.kb[ti] = k
+	}
+	return s, nil
+}
+
+// kuboMoment combines the sectors' sums at temperature index ti (T > 0) into
+// the moment <M_n> (mu_B) and the isothermal susceptibility
+//
+//	chi = (mu_B/k_B) [ sum_{v,w} |M_vw|^2 (p_v - p_w)/(E_w - E_v) / Z - <M_n>^2 / T ]
+//	    = (mu_B/k_B) [ Var(M_vv)/T + kb/Z ]   (mu_B/T),
+//
+// the diagonal terms p_v M_vv^2 / T minus <M_n>^2 / T being the variance of
+// the diagonal elements, combined over the sectors about the overall mean
+// (sum_s [dev2_s + z_s (mom_s/z_s - <M_n>)^2] / Z). Each sector is weighted by
+// exp(-(e0_s - emin)/T), emin the lowest energy over all sectors; sectors
+// with no sums (none computed) are skipped.
+func kuboMoment(sums []kuboSums, emin float64, ti int, T float64) (m, chi float64) {
+	var zz, mom, kb float64
+	for _, s := range sums {
+		if s.z == nil {
+			continue
+		}
+		f := math.Exp(-(s.e0 - emin) / T)
+		zz += f * s.z[ti]
+		mom += f * s.mom[ti]
+		kb += f * s.kb[ti]
+	}
+	m = mom / zz
+	v := 0.0
+	for _, s := range sums {
+		if s.z == nil || s.z[ti] == 0 {
+			continue
+		}
+		f := math.Exp(-(s.e0 - emin) / T)
+		d := s.mom[ti]/s.z[ti] - m
+		v += f * (s.dev2[ti] + s.z[ti]*d*d)
+	}
+	return m, MuBOverKB * (v/zz/T + kb/zz)
+}
+
 // momentElements holds an operator's matrix elements between the eigenstates
 // of one sector: the diagonal <v|O|v> and |<v|O|w>|^2 (row-major dim x dim).
 type momentElements struct {
@@ -286,37 +338,61 @@ func momentMatrix(ctx context.Context, sys *spinSystem, bs *basisSet, sp *sector
 		}
 		return out, nil
 	}
+	// Complex: P = U^dagger X with U = Ur + i Ui and X = O U = Xr + i Xi,
+	//
+	//	Re P = Ur^T Xr + Ui^T Xi,   Im P = Ur^T Xi - Ui^T Xr,
+	//
+	// as four real products (gonum's Dgemm is blocked, vectorized and
+	// parallel; its Zgemm is about ten times slower), one column panel at a
+	// time, keeping only |P_vw|^2 and the diagonal.
 	u := sp.vecsC
-	x := make([]complex128, n*n)
+	ur, ui := make([]float64, n*n), make([]float64, n*n)
+	for i, v := range u {
+		ur[i], ui[i] = real(v), imag(v)
+	}
+	xr, xi := make([]float64, n*n), make([]float64, n*n)
 	for c, s := range sec.states {
 		sys.digits(s, k)
 		if d := op.diagonal(sys, k); d != 0 {
-			row, dst := u[c*n:(c+1)*n], x[c*n:(c+1)*n]
-			for j := range row {
-				dst[j] += complex(d, 0) * row[j]
+			sr, si := ur[c*n:(c+1)*n], ui[c*n:(c+1)*n]
+			dr, di := xr[c*n:(c+1)*n], xi[c*n:(c+1)*n]
+			for j := range sr {
+				dr[j] += d * sr[j]
+				di[j] += d * si[j]
 			}
 		}
 		op.apply(sys, s, k, func(y int64, amp complex128) {
 			r := bs.index(y)
-			row, dst := u[c*n:(c+1)*n], x[r*n:(r+1)*n]
-			for j := range row {
-				dst[j] += amp * row[j]
+			ar, ai := real(amp), imag(amp)
+			sr, si := ur[c*n:(c+1)*n], ui[c*n:(c+1)*n]
+			dr, di := xr[r*n:(r+1)*n], xi[r*n:(r+1)*n]
+			for j := range sr {
+				dr[j] += ar*sr[j] - ai*si[j]
+				di[j] += ar*si[j] + ai*sr[j]
 			}
 		})
 	}
-	p := make([]complex128, n*n)
+	w := min(gemmPanel, n)
+	pr, pi := make([]float64, n*w), make([]float64, n*w)
 	for j0 := 0; j0 < n; j0 += gemmPanel {
 		if err := ctx.Err(); err != nil {
 			return out, err
 		}
 		w := min(gemmPanel, n-j0)
-		impl.Zgemm(blas.ConjTrans, blas.NoTrans, n, w, n, 1, u, n, x[j0:], n, 0, p[j0:], n)
-	}
-	for i, v := range p {
-		out.abs2[i] = real(v)*real(v) + imag(v)*imag(v)
-	}
-	for v := 0; v < n; v++ {
-		out.diag[v] = real(p[v*n+v])
+		impl.Dgemm(blas.Trans, blas.NoTrans, n, w, n, 1, ur, n, xr[j0:], n, 0, pr, w)
+		impl.Dgemm(blas.Trans, blas.NoTrans, n, w, n, 1, ui, n, xi[j0:], n, 1, pr, w)
+		impl.Dgemm(blas.Trans, blas.NoTrans, n, w, n, 1, ur, n, xi[j0:], n, 0, pi, w)
+		impl.Dgemm(blas.Trans, blas.NoTrans, n, w, n, -1, ui, n, xr[j0:], n, 1, pi, w)
+		for v := 0; v < n; v++ {
+			a, b := pr[v*w:(v+1)*w], pi[v*w:(v+1)*w]
+			dst := out.abs2[v*n+j0 : v*n+j0+w]
+			for j := range dst {
+				dst[j] = a[j]*a[j] + b[j]*b[j]
+			}
+			if v >= j0 && v < j0+w {
+				out.diag[v] = a[v-j0]
+			}
+		}
 	}
 	return out, nil
 }
