@@ -248,10 +248,19 @@ func (d ZeemanData) labelledCrossings() []crossing {
 			}
 		}
 	}
+	// Two labels name the same branch unless a quantum number that both
+	// carry differs: at zero field an SU(2) level carries S and S^z, in a
+	// field with unequal g values only S^z is left, and the Kramers
+	// doublet that splits at B = 0 is not a crossing.
+	compatible := func(a, b branchKey) bool {
+		return a.n == b.n && (!a.hasSz || !b.hasSz || a.twoSz == b.twoSz) && (!a.hasS || !b.hasS || a.twoS == b.twoS)
+	}
 	disjoint := func(a, b map[branchKey]bool) bool {
 		for k := range a {
-			if b[k] {
-				return false
+			for l := range b {
+				if compatible(k, l) {
+					return false
+				}
 			}
 		}
 		return true

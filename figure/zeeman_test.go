@@ -164,6 +164,26 @@ func TestGroundCrossingsTriangle(t *testing.T) {
 	checkCrossings(t, "triangle on -3:3:61", d, []float64{-want, 0, want}, 1e-6)
 }
 
+// Unequal g values: at zero field the levels carry S and S^z (SU(2)), in a
+// field only S^z. The ground doublet splitting at B = 0 is no crossing, and
+// the doublet-quartet crossing of the triangle stays where the effective
+// moments put it (derivation: the lowest doublet and the quartet carry
+// S^z and are linear in B with slopes set by their g averages; checked
+// here against the crossing found on a fine grid).
+func TestGroundCrossingsUnequalG(t *testing.T) {
+	tri := heisenberg("triangle, unequal g", []float64{0.5, 0.5, 0.5}, [][2]int{{0, 1}, {1, 2}, {2, 0}}, 1)
+	tri.Sites[1].G = proto.Float64(2.3)
+	d := sweep(t, tri, [3]float64{0, 0, 1}, linspace(0, 0.5, 11), 0)
+	if got := GroundCrossings(d); len(got) != 0 {
+		t.Errorf("crossings %v below the quartet's field, want none", got)
+	}
+	fine := GroundCrossings(sweep(t, tri, [3]float64{0, 0, 1}, linspace(0, 3, 301), 0))
+	coarse := GroundCrossings(sweep(t, tri, [3]float64{0, 0, 1}, linspace(0, 3, 31), 0))
+	if len(fine) != 1 || len(coarse) != 1 || math.Abs(fine[0]-coarse[0]) > 1e-3 {
+		t.Errorf("crossings fine %v, coarse %v: want one, the same", fine, coarse)
+	}
+}
+
 func TestGroundCrossingsStar(t *testing.T) {
 	const J, s0, n = 1.0, 1.0, 3.0
 	star := heisenberg("star", []float64{s0, 0.5, 0.5, 0.5}, [][2]int{{0, 1}, {0, 2}, {0, 3}}, J)
