@@ -12,17 +12,13 @@ import (
 
 const demoData = "../../testdata/demo-data.csv"
 
-// demoDefectBonds binds one parameter to the six centre-to-host bonds of
-// the demo heptamer (bonds 6 to 11 of testdata/demo-multimer.json).
-const demoDefectBonds = "bonds[6].exchange,bonds[7].exchange,bonds[8].exchange,bonds[9].exchange,bonds[10].exchange,bonds[11].exchange"
-
 // The demo's invented data come from a hidden heptamer (demodata_test.go):
 // the fit of --json finds its defect exchange and centre g within a few of
 // its reported errors, prefers it to both free spins by AIC, and prints
 // the contract's fields (common practice, no source: recovery of the
 // generating parameters).
 func TestFitDemoDataJSON(t *testing.T) {
-	args := []string{"fit", "--data", demoData, "--model", demoFile, "--vary", "Jd=" + demoDefectBonds + ":0:60", "--vary", "gc=sites[0].g:1.8:2.6", "--json"}
+	args := []string{"fit", "--data", demoData, "--model", demoFile, "--vary", "Jd=" + demoDefectBondPaths + ":0:60", "--vary", "gc=sites[0].g:1.8:2.6", "--json"}
 	stdout, _ := mustRun(t, args...)
 	var r frustumv1.FitResult
 	keys := parseJSON(t, stdout, &r)
@@ -50,7 +46,7 @@ func TestFitDemoDataJSON(t *testing.T) {
 }
 
 func TestFitTableAndCSV(t *testing.T) {
-	stdout, _ := mustRun(t, "fit", "--data", demoData, "--model", demoFile, "--vary", "Jd="+demoDefectBonds+":0:60")
+	stdout, _ := mustRun(t, "fit", "--data", demoData, "--model", demoFile, "--vary", "Jd="+demoDefectBondPaths+":0:60")
 	for _, want := range []string{"chi2/dof", "AIC", "BIC", "free spin 1/2", "Jd = ", " K", "Best (lowest AIC): frustumite"} {
 		if !strings.Contains(stdout, want) {
 			t.Errorf("table lacks %q:\n%s", want, stdout)

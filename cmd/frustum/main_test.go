@@ -456,13 +456,21 @@ func TestTestdata(t *testing.T) {
 }
 
 func TestDemo(t *testing.T) {
-	stdout, stderr := mustRun(t, "demo")
+	dir := t.TempDir()
+	stdout, stderr := mustRun(t, "demo", "--plots", dir)
 	if stderr != "" {
 		t.Errorf("demo stderr %q", stderr)
 	}
-	for _, w := range []string{"INVENTED", "frustumite", "E (K)", "degeneracy", "impurity M (mu_B)", "free spin-1/2", "B (T)", "Engine:"} {
+	for _, w := range []string{"INVENTED", "frustumite", "E (K)", "degeneracy", "impurity M (mu_B)", "free spin-1/2", "B (T)", "Engine:",
+		"Measurements (INVENTED)", "chi2/dof", "AIC", "Best (lowest AIC): frustumite", "Jd = ", "Pictures in " + dir} {
 		if !strings.Contains(stdout, w) {
 			t.Errorf("demo output lacks %q:\n%s", w, stdout)
+		}
+	}
+	for _, f := range []string{"magnetization.png", "zeeman.png", "fit.png", "collapse.png"} {
+		b, err := os.ReadFile(filepath.Join(dir, f))
+		if err != nil || !bytes.HasPrefix(b, []byte("\x89PNG")) {
+			t.Errorf("%s: %v (%d bytes)", f, err, len(b))
 		}
 	}
 }
