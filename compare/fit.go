@@ -558,9 +558,8 @@ func (f *fitter) fitCluster(ctx context.Context, k int, m namedModel, stage stri
 		return nil, err
 	}
 	mr.Report, mr.Powder = p.lastEval.report, p.lastEval.powder
-	if mr.Powder != nil && mr.Powder.RelativeDeviation > 1e-3 {
-		mr.Warnings = append(mr.Warnings, fmt.Sprintf("the powder average deviates from its coarser rule by %.2g of saturation: increase powder", mr.Powder.RelativeDeviation))
-	}
+	// The engine's own warnings (an unconverged powder average among them)
+	// stay in Report.Warnings.
 	return mr, nil
 }
 
