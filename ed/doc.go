@@ -34,6 +34,22 @@
 //     survive, real symmetric where every matrix element is real and complex
 //     Hermitian otherwise.
 //
+// Magnetization also gives, on request, the exact isothermal dM/dB at every
+// point (MagnetizationRequest.Susceptibility): the sector variance of S^z on
+// the first route, the Kubo sum with its Van Vleck part on the second.
+//
+// # Powder averages
+//
+// MagnetizationRequest.Powder > 0 averages the curves over the directions of
+// a quadrature rule on the sphere (package sphere: Lebedev rules, then
+// Gauss-Legendre products) with at least that many points. Directions that
+// the Hamiltonian's symmetry relates are computed once: n and -n always
+// (time reversal), directions related by a spin rotation that maps the
+// couplings, single-ion terms and g tensors onto themselves (with a site
+// permutation, found by search), and every direction at once for an SU(2)
+// cluster with scalar g values. The same average on the next coarser rule
+// is the convergence estimate of the PowderReport.
+//
 // # Invariants
 //
 // Energies are ascending with multiplicity; levels group states whose

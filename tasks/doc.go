@@ -1,4 +1,4 @@
-// Package tasks runs Frustum's three tasks on the API vocabulary: it is the
+// Package tasks runs Frustum's four tasks on the API vocabulary: it is the
 // one edge between the proto messages of package frustumv1 and the plain Go
 // types of the engine, package ed.
 //
@@ -12,6 +12,12 @@
 //	Spectrum(ctx, cluster, *SpectrumParameters, opt)           -> *SpectrumResult
 //	Thermo(ctx, cluster, *ThermoParameters, opt)               -> *ThermoResult
 //	Magnetization(ctx, cluster, *MagnetizationParameters, opt) -> *MagnetizationResult
+//	Fit(ctx, *FitParameters, opt)                              -> *FitResult
+//
+// A fit carries its clusters in FitParameters.models (JobSpec.cluster stays
+// empty) and runs compare.Fit; its errors name the fields of the parameters
+// (data.temperature[3], models[1].bonds[0].b, vary[0].paths[1]), under
+// "spec.fit." in Plan and Run.
 //
 // The command line (cmd/frustum) calls these in-process; a service calls the
 // same functions, so both give the same answer to the same message.
