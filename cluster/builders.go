@@ -29,27 +29,33 @@ func Chain(n int, spin float64, j float64, periodic bool) *Model {
 	if periodic && n < 3 {
 		panic(fmt.Sprintf("cluster.Chain: periodic with n = %d, want n >= 3", n))
 	}
+	if !(spin > 0) {
+		panic(fmt.Sprintf("cluster.Chain: spin %s, want a positive multiple of 1/2", formatFloat(spin)))
+	}
 	kind := "open"
 	if periodic {
 		kind = "periodic"
 	}
-	c := &frustumv1.Cluster{Name: fmt.Sprintf("%s chain of %d spins %s", kind, n, spinName(spin))}
+	name := fmt.Sprintf("%s chain of %d spins %s", kind, n, spinName(spin))
+	if periodic {
+		// The ring of Ring, with the symmetries named as here.
+		c, err := ringCluster(n, ChainParams{Spin: spin, J1: j, Name: name}, false)
+		if err != nil {
+			panic(fmt.Sprintf("cluster.Chain: %v", err))
+		}
+		c.Symmetries = append(c.Symmetries,
+			symmetry("translation", n, func(i int) int { return (i + 1) % n }, chainLabel),
+			symmetry("reflection", n, func(i int) int { return (n - i) % n }, chainLabel))
+		return mustModel("Chain", c)
+	}
+	c := &frustumv1.Cluster{Name: name}
 	for i := range n {
-		c.Sites = append(c.Sites, &frustumv1.Site{Label: chainLabel(i), Spin: ptr(spin), Position: chainPosition(i, n, periodic)})
+		c.Sites = append(c.Sites, &frustumv1.Site{Label: chainLabel(i), Spin: ptr(spin), Position: chainPosition(i, n, false)})
 	}
-	last := n - 1
-	if periodic {
-		last = n
+	for i := range n - 1 {
+		c.Bonds = append(c.Bonds, heisenberg(chainLabel(i), chainLabel(i+1), j))
 	}
-	for i := range last {
-		c.Bonds = append(c.Bonds, heisenberg(chainLabel(i), chainLabel((i+1)%n), j))
-	}
-	if periodic {
-		c.Symmetries = append(c.Symmetries, symmetry("translation", n, func(i int) int { return (i + 1) % n }, chainLabel))
-		c.Symmetries = append(c.Symmetries, symmetry("reflection", n, func(i int) int { return (n - i) % n }, chainLabel))
-	} else {
-		c.Symmetries = append(c.Symmetries, symmetry("reflection", n, func(i int) int { return n - 1 - i }, chainLabel))
-	}
+	c.Symmetries = append(c.Symmetries, symmetry("reflection", n, func(i int) int { return n - 1 - i }, chainLabel))
 	return mustModel("Chain", c)
 }
 
@@ -58,24 +64,19 @@ func Chain(n int, spin float64, j float64, periodic bool) *Model {
 //
 //	H = J1 sum_i S_i . S_{i+1} + J2 sum_i S_i . S_{i+2}      (indices mod n)
 //
-// j1 and j2 in K. At J2 = J1/2 and even n this is the Majumdar-Ghosh point,
-// whose two dimer coverings are exact degenerate ground states of energy
-// -3 n J1 / 8. Its symmetries are the translation i -> i+1 and the reflection
-// i -> -i (mod n). ChainJ1J2 panics if n < 5 (for n = 4 the next-nearest
-// bonds would repeat).
+// j1 and j2 in K; the next-nearest bonds are there even when j2 = 0. At
+// J2 = J1/2 and even n this is the Majumdar-Ghosh point, whose two dimer
+// coverings are exact degenerate ground states of energy -3 n J1 / 8. Its
+// symmetries are the translation i -> i+1 and the reflection i -> -i (mod
+// n). ChainJ1J2 panics if n < 5 (for n = 4 the next-nearest bonds would
+// repeat). Ring builds the same Hamiltonian with spin S, XXZ and DM terms.
 func ChainJ1J2(n int, j1, j2 float64) *Model {
 	if n < 5 {
 		panic(fmt.Sprintf("cluster.ChainJ1J2: n = %d, want n >= 5", n))
 	}
-	c := &frustumv1.Cluster{Name: fmt.Sprintf("J1-J2 ring of %d spins 1/2", n)}
-	for i := range n {
-		c.Sites = append(c.Sites, &frustumv1.Site{Label: chainLabel(i), Position: chainPosition(i, n, true)})
-	}
-	for i := range n {
-		c.Bonds = append(c.Bonds, heisenberg(chainLabel(i), chainLabel((i+1)%n), j1))
-	}
-	for i := range n {
-		c.Bonds = append(c.Bonds, heisenberg(chainLabel(i), chainLabel((i+2)%n), j2))
+	c, err := ringCluster(n, ChainParams{J1: j1, J2: j2, Name: fmt.Sprintf("J1-J2 ring of %d spins 1/2", n)}, true)
+	if err != nil {
+		panic(fmt.Sprintf("cluster.ChainJ1J2: %v", err))
 	}
 	c.Symmetries = append(c.Symmetries,
 		symmetry("translation", n, func(i int) int { return (i + 1) % n }, chainLabel),
