@@ -50,6 +50,10 @@ type Report struct {
 	Diagonalizations int
 	Solver           string
 	Warnings         []string
+	// Matvecs counts the Hamiltonian applications of the Lanczos route.
+	Matvecs int64
+	// Symmetry describes the symmetry sectors used beyond S^z.
+	Symmetry string
 }
 
 // Level is a group of degenerate eigenstates sharing their good quantum numbers.
@@ -62,10 +66,66 @@ type Level struct {
 	TotalSpin    float64
 }
 
+// Method chooses how a task diagonalizes.
+type Method string
+
+// The methods. MethodAuto (also "") picks full diagonalization where it
+// fits and is cheap, Lanczos otherwise, and the report says which it took.
+const (
+	MethodAuto    Method = "auto"
+	MethodFull    Method = "full"
+	MethodLanczos Method = "lanczos"
+	// MethodFTLM is the finite-temperature Lanczos method of Thermo.
+	MethodFTLM Method = "ftlm"
+)
+
+// DefaultLanczosLevels is the number of levels the Lanczos route finds when
+// a request asks for all of them (Levels 0) on a cluster too large for full
+// diagonalization.
+const DefaultLanczosLevels = 10
+
+// AutoDenseLimit is the largest block that MethodAuto diagonalizes densely
+// when only the lowest levels are asked for.
+const AutoDenseLimit = 2000
+
+// LanczosOptions tune the Lanczos route; zero values select the defaults of
+// package lanczos (residual tolerance 1e-10 relative to max(1, |E|), seed 0,
+// at most 300 K + 1000 matrix-vector products per sector, a basis of
+// max(2K + 20, 40) vectors).
+type LanczosOptions struct {
+	Tol           float64
+	Seed          uint64
+	MaxIterations int
+	Basis         int
+}
+
 // SpectrumRequest asks for the spectrum at one field.
 type SpectrumRequest struct {
 	Field  [3]float64 // B in T
 	Levels int        // lowest K eigenvalues; 0 = all
+	Method Method
+	// Lanczos tunes the Lanczos route.
+	Lanczos LanczosOptions
+	// Correlations asks for the ground state's <S_i . S_j> and <S_i^z>
+	// (Lanczos route).
+	Correlations bool
+	// NoSpatialSymmetry keeps the Lanczos route to S^z sectors (for
+	// checks and comparisons).
+	NoSpatialSymmetry bool
+}
+
+// GroundState holds the correlations of the ground state found by the
+// Lanczos route, in the symmetry sector Sector.
+type GroundState struct {
+	Energy float64 // K
+	Sector string
+	Sites  []string
+	// Axis is the quantization axis of Sz (the field direction where the
+	// engine turned the frame onto it, z otherwise).
+	Axis [3]float64
+	// Sz[i] = <S_i^z>; SzSz and SpinSpin are N x N, row-major:
+	// <S_i^z S_j^z> and <S_i . S_j> (the diagonal is S_i (S_i + 1)).
+	Sz, SzSz, SpinSpin []float64
 }
 
 // SpectrumResult: Energies ascending with multiplicity (K); Levels grouped.
@@ -75,6 +135,11 @@ type SpectrumResult struct {
 	Levels      []Level
 	Truncated   bool
 	TotalStates int64
+	// Residuals[i] = ||H y - E_i y|| of each energy's Ritz vector (K), from
+	// the Lanczos route; nil after full diagonalization.
+	Residuals []float64
+	// GroundState when the request asked for correlations.
+	GroundState *GroundState
 	Report      Report
 }
 
@@ -82,6 +147,12 @@ type SpectrumResult struct {
 type ThermoRequest struct {
 	Temperatures []float64  // K, each > 0
 	Field        [3]float64 // B in T
+	// Method: auto (full diagonalization where it fits, FTLM otherwise),
+	// full or ftlm.
+	Method Method
+	FTLM   FTLMOptions
+	// NoSpatialSymmetry keeps FTLM to S^z sectors.
+	NoSpatialSymmetry bool
 }
 
 // ThermoResult holds parallel arrays, one entry per temperature. Units: K,
@@ -95,7 +166,10 @@ type ThermoResult struct {
 	Entropy        []float64
 	Magnetization  []float64
 	Susceptibility []float64
-	Report         Report
+	// The one-standard-deviation statistical errors of each value, from the
+	// FTLM route (nil after full diagonalization, which is exact).
+	EnergyError, SpecificHeatError, EntropyError, MagnetizationError, SusceptibilityError []float64
+	Report                                                                                Report
 }
 
 // MagnetizationRequest asks for M(B) along one direction at several temperatures.

@@ -31,8 +31,10 @@ type setup struct {
 	// about x (S^y, S^z -> -S^y, -S^z on every site), so the sectors S^z and
 	// -S^z have the same spectrum and opposite group moments.
 	flipSymmetric bool
-	// rotated: the quantization axis was turned onto the common m_i axis.
+	// rotated: the quantization axis was turned onto the common m_i axis,
+	// axis (in the lab frame; z otherwise).
 	rotated bool
+	axis    [3]float64
 	// conserveSz: H(B) and M_n conserve total S^z in the working frame.
 	conserveSz bool
 	// uniform: M_n = mz * S^z_total, so that H(B) = H0 - MuBOverKB B mz S^z
@@ -53,7 +55,7 @@ type setup struct {
 func newSetup(model *cluster.Model, n [3]float64, withField bool) *setup {
 	sys := newSpinSystem(model)
 	N := len(model.Sites)
-	st := &setup{sys: sys, su2: true, flipSymmetric: true}
+	st := &setup{sys: sys, su2: true, flipSymmetric: true, axis: [3]float64{0, 0, 1}}
 	for _, s := range model.Sites {
 		if s.SingleIon != 0 {
 			st.su2 = false
@@ -84,6 +86,7 @@ func newSetup(model *cluster.Model, n [3]float64, withField bool) *setup {
 	if st.su2 && withField {
 		if u, ok := commonAxis(m); ok {
 			st.rotated = true
+			st.axis = u
 			for i := range m {
 				c := dot3(m[i], u)
 				m[i] = [3]float64{0, 0, c}

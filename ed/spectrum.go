@@ -2,11 +2,13 @@ package ed
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"sort"
 
 	"frustum/cluster"
+	"frustum/ed/hilbert"
 )
 
 // Spectrum diagonalizes the cluster at one field and returns every eigenvalue
@@ -22,6 +24,9 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 	p, err := planSpectrum(m, req, opt)
 	if err != nil {
 		return nil, err
+	}
+	if p.krylov != nil {
+		return spectrumKrylov(ctx, m, req, opt, p, p.krylov)
 	}
 	opt.Workers = p.workers
 	st, op, isReal, B, applyAnalytically, rep := p.st, p.op, p.isReal, p.B, p.analytic, p.rep
@@ -107,12 +112,17 @@ type taskPlan struct {
 	// memory limit.
 	workers int
 	rep     Report
+	// krylov is the plan of the Lanczos route and ftlm that of the
+	// finite-temperature Lanczos route (nil: full diagonalization).
+	krylov *krylovPlan
+	ftlm   *ftlmPlan
 }
 
-// planSpectrum validates the request and plans the spectrum task.
+// planSpectrum validates the request and plans the spectrum task: full
+// diagonalization, or the Lanczos route (see Method).
 func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan, error) {
-	if err := checkModel(m); err != nil {
-		return nil, err
+	if m == nil || len(m.Sites) == 0 {
+		return nil, &RequestError{Field: "cluster", Reason: "has no sites"}
 	}
 	if err := checkVector("field", req.Field); err != nil {
 		return nil, err
@@ -120,24 +130,124 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	if req.Levels < 0 {
 		return nil, &RequestError{Field: "levels", Reason: fmt.Sprintf("%d is negative", req.Levels)}
 	}
-	n, B := unit(req.Field)
-	st := newSetup(m, n, B != 0)
-	// Diagonalize H0 when the field only shifts its sectors.
-	p := &taskPlan{st: st, B: B, analytic: B == 0 || st.uniform, op: st.h0}
-	if !p.analytic {
-		p.op = st.hamiltonian(B)
+	switch req.Method {
+	case "", MethodAuto, MethodFull, MethodLanczos:
+	default:
+		return nil, &RequestError{Field: "method", Reason: fmt.Sprintf("unknown method %q (auto, full or lanczos)", req.Method)}
 	}
-	p.isReal = p.op.isReal()
-	w := newWorkload(st, opt, false, false, false, 1)
-	w.complex = !p.isReal
-	mem, workers, err := w.check(opt.Limits)
-	if err != nil {
+	if req.Method == MethodFull && req.Correlations {
+		return nil, &RequestError{Field: "correlations", Reason: "ground-state correlations come from the Lanczos route: use method auto or lanczos"}
+	}
+	if err := checkLanczos(req.Lanczos); err != nil {
 		return nil, err
 	}
-	p.rep = w.report(st, mem)
-	p.workers = workers
-	p.rep.Route = spectrumRoute(st, B, p.analytic)
+	n, B := unit(req.Field)
+	dimension, ok := m.Dimension()
+	if !ok {
+		return nil, &RequestError{Field: "cluster", Reason: "Hilbert space too large to index"}
+	}
+	var st *setup
+	// Diagonalize H0 when the field only shifts its sectors.
+	p := &taskPlan{B: B}
+	var denseErr error
+	if dimension <= 1<<31-1 {
+		st = newSetup(m, n, B != 0)
+		p.st = st
+		p.analytic = B == 0 || st.uniform
+		p.op = st.h0
+		if !p.analytic {
+			p.op = st.hamiltonian(B)
+		}
+		p.isReal = p.op.isReal()
+		w := newWorkload(st, opt, false, false, false, 1)
+		w.complex = !p.isReal
+		mem, workers, err := w.check(opt.Limits)
+		denseErr = err
+		if err == nil {
+			p.rep = w.report(st, mem)
+			p.workers = workers
+			p.rep.Route = spectrumRoute(st, B, p.analytic)
+		}
+		largest := int64(0)
+		for _, d := range sectorDimensions(st.sys, st.conserveSz) {
+			largest = max(largest, d)
+		}
+		useDense := false
+		switch req.Method {
+		case MethodFull:
+			if err != nil {
+				return nil, err
+			}
+			useDense = true
+		case "", MethodAuto:
+			useDense = err == nil && !req.Correlations && (req.Levels == 0 || largest <= AutoDenseLimit)
+		}
+		if useDense {
+			return p, nil
+		}
+	} else if req.Method == MethodFull {
+		return nil, &RequestError{Field: "cluster", Reason: fmt.Sprintf("Hilbert space of %d sites is beyond full diagonalization (more than 2^31 states)", len(m.Sites))}
+	} else {
+		st = newSetup(m, n, B != 0)
+		p.st = st
+		p.analytic = B == 0 || st.uniform
+		p.op = st.h0
+		if !p.analytic {
+			p.op = st.hamiltonian(B)
+		}
+		p.isReal = p.op.isReal()
+	}
+	// The Lanczos route.
+	k := req.Levels
+	var why string
+	if k == 0 {
+		k = DefaultLanczosLevels
+		why = fmt.Sprintf("; all levels were asked for, but full diagonalization does not fit (%v): the lowest %d instead", denseErr, k)
+	}
+	mirror := st.flipSymmetric && p.op == st.h0
+	inversion := st.flipSymmetric && p.op == st.h0 && st.conserveSz
+	kp, err := planKrylov(m, st, p.op, k, req.Correlations, inversion, !req.NoSpatialSymmetry, mirror, opt.Limits)
+	if err != nil {
+		var le *LimitError
+		if errors.As(err, &le) && denseErr != nil && req.Levels == 0 {
+			// All levels were asked for: the dense figures are the ones
+			// that matter.
+			return nil, denseErr
+		}
+		return nil, err
+	}
+	p.krylov = kp
+	p.rep = Report{Method: "Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
+		Solver: "thick-restart Lanczos, full reorthogonalization", Symmetry: kp.groups.about}
+	for _, s := range kp.sectors {
+		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
+		if s.twoSz != hilbert.NoSz {
+			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
+		}
+		p.rep.Sectors = append(p.rep.Sectors, sec)
+	}
+	op := "matrix-free"
+	if kp.csr {
+		op = "compact CSR matrix per sector"
+	}
+	p.rep.Route = fmt.Sprintf("%s; Lanczos in %d sectors (%s; %s), the lowest %d of each%s", spectrumRoute(st, B, p.analytic), len(kp.sectors), kp.groups.about, op, k, why)
+	if why != "" {
+		p.rep.Warnings = append(p.rep.Warnings, fmt.Sprintf("all levels were asked for, but the cluster is too large for full diagonalization: the lowest %d from Lanczos", k))
+	}
 	return p, nil
+}
+
+// checkLanczos refuses negative or non-finite Lanczos options.
+func checkLanczos(l LanczosOptions) error {
+	switch {
+	case l.Tol < 0 || math.IsNaN(l.Tol) || math.IsInf(l.Tol, 0):
+		return &RequestError{Field: "lanczos.tol", Reason: fmt.Sprintf("%v: must be a finite number >= 0 (0: the default 1e-10)", l.Tol)}
+	case l.MaxIterations < 0:
+		return &RequestError{Field: "lanczos.max_iterations", Reason: "must be >= 0 (0: the default)"}
+	case l.Basis < 0:
+		return &RequestError{Field: "lanczos.basis", Reason: "must be >= 0 (0: the default)"}
+	}
+	return nil
 }
 
 // PlanSpectrum returns what Spectrum would do (method, route, sectors,

@@ -9,6 +9,7 @@ import (
 	"gonum.org/v1/gonum/blas/gonum"
 
 	"frustum/cluster"
+	"frustum/ed/hilbert"
 )
 
 // Thermo returns the thermodynamics of the cluster at one field from its full
@@ -37,6 +38,9 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 	p, err := planThermo(m, req, opt)
 	if err != nil {
 		return nil, err
+	}
+	if p.ftlm != nil {
+		return thermoFTLM(ctx, req, opt, p)
 	}
 	opt.Workers = p.workers
 	st, op, isReal, B, rep := p.st, p.op, p.isReal, p.B, p.rep
@@ -142,14 +146,26 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 
 // planThermo validates the request and plans the thermodynamics task.
 func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, error) {
-	if err := checkModel(m); err != nil {
-		return nil, err
+	if m == nil || len(m.Sites) == 0 {
+		return nil, &RequestError{Field: "cluster", Reason: "has no sites"}
 	}
 	if err := checkVector("field", req.Field); err != nil {
 		return nil, err
 	}
 	if err := checkTemperatures(req.Temperatures, false); err != nil {
 		return nil, err
+	}
+	switch req.Method {
+	case "", MethodAuto, MethodFull, MethodFTLM:
+	default:
+		return nil, &RequestError{Field: "method", Reason: fmt.Sprintf("unknown method %q (auto, full or ftlm)", req.Method)}
+	}
+	if err := checkFTLM(req.FTLM); err != nil {
+		return nil, err
+	}
+	dimension, ok := m.Dimension()
+	if !ok {
+		return nil, &RequestError{Field: "cluster", Reason: "Hilbert space too large to index"}
 	}
 	n, B := unit(req.Field)
 	st := newSetup(m, n, true)
@@ -158,15 +174,49 @@ func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, er
 		p.op = st.hamiltonian(B)
 	}
 	p.isReal = p.op.isReal() && st.moment.isReal()
-	w := newWorkload(st, opt, !p.analytic, !p.analytic, false, 1)
-	w.complex = !p.isReal
-	mem, workers, err := w.check(opt.Limits)
+	var denseErr error
+	if dimension <= 1<<31-1 && req.Method != MethodFTLM {
+		w := newWorkload(st, opt, !p.analytic, !p.analytic, false, 1)
+		w.complex = !p.isReal
+		mem, workers, err := w.check(opt.Limits)
+		if err == nil {
+			p.rep = w.report(st, mem)
+			p.workers = workers
+			p.rep.Route = thermoRoute(st, B)
+			return p, nil
+		}
+		denseErr = err
+		if req.Method == MethodFull {
+			return nil, err
+		}
+	} else if req.Method == MethodFull {
+		return nil, &RequestError{Field: "cluster", Reason: fmt.Sprintf("Hilbert space of %d sites is beyond full diagonalization (more than 2^31 states)", len(m.Sites))}
+	}
+	// Finite-temperature Lanczos: with one effective g the field is a
+	// shift of each S^z sector of H0.
+	inversion := st.flipSymmetric && p.op == st.h0 && st.conserveSz
+	fp, err := planFTLM(m, st, p.op, req.FTLM, inversion, !req.NoSpatialSymmetry, inversion, opt.Limits)
 	if err != nil {
 		return nil, err
 	}
-	p.rep = w.report(st, mem)
-	p.workers = workers
-	p.rep.Route = thermoRoute(st, B)
+	fp.moments = p.analytic && st.conserveSz
+	p.ftlm = fp
+	kp := fp.kp
+	p.rep = Report{Method: "finite-temperature Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
+		Solver:   fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0)),
+		Symmetry: kp.groups.about}
+	for _, s := range kp.sectors {
+		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
+		if s.twoSz != hilbert.NoSz {
+			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
+		}
+		p.rep.Sectors = append(p.rep.Sectors, sec)
+	}
+	why := ""
+	if denseErr != nil {
+		why = fmt.Sprintf(" (full diagonalization does not fit: %v)", denseErr)
+	}
+	p.rep.Route = fmt.Sprintf("%s; finite-temperature Lanczos in %d sectors (%s)%s", thermoRoute(st, B), len(kp.sectors), kp.groups.about, why)
 	return p, nil
 }
 

@@ -18,6 +18,7 @@ import (
 	"google.golang.org/protobuf/types/known/emptypb"
 	"google.golang.org/protobuf/types/known/timestamppb"
 
+	"frustum/cluster"
 	frustumv1 "frustum/proto/frustum/v1"
 	"frustum/server/store"
 	"frustum/tasks"
@@ -142,17 +143,27 @@ func setResult(job *frustumv1.Job, typeName string, data []byte) error {
 func (s *Server) checkSize(spec *frustumv1.JobSpec) error {
 	if fit := spec.GetFit(); fit != nil {
 		for k, c := range fit.GetModels() {
-			if err := s.checkClusterSize(c, fmt.Sprintf("spec.fit.models[%d].sites", k)); err != nil {
+			if err := s.checkClusterSize(c, fmt.Sprintf("spec.fit.models[%d].sites", k), denseLog2); err != nil {
 				return err
 			}
 		}
 		return nil
 	}
-	return s.checkClusterSize(spec.GetCluster(), "spec.cluster.sites")
+	maxLog2 := float64(denseLog2)
+	if spec.GetSpectrum() != nil {
+		// Spectra beyond full diagonalization take the Lanczos route; the
+		// engine's plan then decides on memory.
+		maxLog2 = float64(cluster.MaxDimensionLog2)
+	}
+	return s.checkClusterSize(spec.GetCluster(), "spec.cluster.sites", maxLog2)
 }
 
+// denseLog2 bounds log2 of the Hilbert space of the tasks that diagonalize
+// fully (thermo, magnetization, fit).
+const denseLog2 = 31
+
 // checkClusterSize is checkSize for one cluster at the given field path.
-func (s *Server) checkClusterSize(c *frustumv1.Cluster, field string) error {
+func (s *Server) checkClusterSize(c *frustumv1.Cluster, field string, maxLog2 float64) error {
 	n := len(c.GetSites())
 	if n > s.cfg.MaxSites {
 		msg := fmt.Sprintf("the cluster has %d sites; this server takes at most %d", n, s.cfg.MaxSites)
@@ -173,8 +184,11 @@ func (s *Server) checkClusterSize(c *frustumv1.Cluster, field string) error {
 		}
 		log2 += math.Log2(twoS + 1)
 	}
-	if log2 >= 31 {
+	if log2 >= maxLog2 {
 		msg := fmt.Sprintf("%d sites give a Hilbert space of dimension 2^%.1f, beyond full diagonalization (fewer than 2^31 states)", n, log2)
+		if maxLog2 != denseLog2 {
+			msg = fmt.Sprintf("%d sites give a Hilbert space of dimension 2^%.1f, beyond what a basis index holds (2^%g)", n, log2, maxLog2)
+		}
 		return statusError(codes.ResourceExhausted, "CLUSTER_TOO_LARGE", field+": "+msg,
 			map[string]string{"sites": strconv.Itoa(n), "log2_dimension": strconv.FormatFloat(log2, 'f', 1, 64)},
 			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: field, Description: msg}}})

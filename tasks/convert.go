@@ -45,12 +45,21 @@ func SpectrumRequestFromProto(p *frustumv1.SpectrumParameters) (ed.SpectrumReque
 	if err != nil {
 		return ed.SpectrumRequest{}, err
 	}
-	return ed.SpectrumRequest{Field: field, Levels: int(p.GetLevels())}, nil
+	l := p.GetLanczos()
+	return ed.SpectrumRequest{Field: field, Levels: int(p.GetLevels()), Method: ed.Method(p.GetMethod()),
+		Lanczos:      ed.LanczosOptions{Tol: l.GetTolerance(), Seed: l.GetSeed(), MaxIterations: int(l.GetMaxIterations()), Basis: int(l.GetBasis())},
+		Correlations: p.GetCorrelations(), NoSpatialSymmetry: p.GetNoSpatialSymmetry()}, nil
 }
 
 // SpectrumParametersToProto converts an engine request to spectrum parameters.
 func SpectrumParametersToProto(r ed.SpectrumRequest) *frustumv1.SpectrumParameters {
-	return &frustumv1.SpectrumParameters{Field: vectorToProto(r.Field), Levels: int32(r.Levels)}
+	p := &frustumv1.SpectrumParameters{Field: vectorToProto(r.Field), Levels: int32(r.Levels), Method: string(r.Method),
+		Correlations: r.Correlations, NoSpatialSymmetry: r.NoSpatialSymmetry}
+	if r.Lanczos != (ed.LanczosOptions{}) {
+		p.Lanczos = &frustumv1.LanczosParameters{Tolerance: r.Lanczos.Tol, Seed: r.Lanczos.Seed,
+			MaxIterations: int32(r.Lanczos.MaxIterations), Basis: int32(r.Lanczos.Basis)}
+	}
+	return p
 }
 
 // ThermoRequestFromProto converts thermo parameters (nil means all defaults)
@@ -60,12 +69,20 @@ func ThermoRequestFromProto(p *frustumv1.ThermoParameters) (ed.ThermoRequest, er
 	if err != nil {
 		return ed.ThermoRequest{}, err
 	}
-	return ed.ThermoRequest{Temperatures: slices.Clone(p.GetTemperatures()), Field: field}, nil
+	f := p.GetFtlm()
+	return ed.ThermoRequest{Temperatures: slices.Clone(p.GetTemperatures()), Field: field, Method: ed.Method(p.GetMethod()),
+		FTLM:              ed.FTLMOptions{Vectors: int(f.GetVectors()), Steps: int(f.GetSteps()), Seed: f.GetSeed(), ExactBelow: int(f.GetExactBelow())},
+		NoSpatialSymmetry: p.GetNoSpatialSymmetry()}, nil
 }
 
 // ThermoParametersToProto converts an engine request to thermo parameters.
 func ThermoParametersToProto(r ed.ThermoRequest) *frustumv1.ThermoParameters {
-	return &frustumv1.ThermoParameters{Temperatures: slices.Clone(r.Temperatures), Field: vectorToProto(r.Field)}
+	p := &frustumv1.ThermoParameters{Temperatures: slices.Clone(r.Temperatures), Field: vectorToProto(r.Field), Method: string(r.Method),
+		NoSpatialSymmetry: r.NoSpatialSymmetry}
+	if r.FTLM != (ed.FTLMOptions{}) {
+		p.Ftlm = &frustumv1.FtlmParameters{Vectors: int32(r.FTLM.Vectors), Steps: int32(r.FTLM.Steps), Seed: r.FTLM.Seed, ExactBelow: int32(r.FTLM.ExactBelow)}
+	}
+	return p
 }
 
 // MagnetizationRequestFromProto converts magnetization parameters (nil means
@@ -108,6 +125,8 @@ func ReportToProto(r ed.Report) *frustumv1.EngineReport {
 		Diagonalizations: int64(r.Diagonalizations),
 		Solver:           r.Solver,
 		Warnings:         slices.Clone(r.Warnings),
+		Matvecs:          r.Matvecs,
+		Symmetry:         r.Symmetry,
 	}
 	for i, s := range r.Sectors {
 		ps := &frustumv1.Sector{Label: s.Label, Dimension: int64(s.Dimension)}
@@ -131,6 +150,8 @@ func ReportFromProto(p *frustumv1.EngineReport) ed.Report {
 		Diagonalizations: int(p.GetDiagonalizations()),
 		Solver:           p.GetSolver(),
 		Warnings:         slices.Clone(p.GetWarnings()),
+		Matvecs:          p.GetMatvecs(),
+		Symmetry:         p.GetSymmetry(),
 	}
 	for _, s := range p.GetSectors() {
 		out.Sectors = append(out.Sectors, ed.Sector{
@@ -178,9 +199,14 @@ func SpectrumResultToProto(name string, r *ed.SpectrumResult) *frustumv1.Spectru
 		Truncated:   r.Truncated,
 		TotalStates: r.TotalStates,
 		Engine:      ReportToProto(r.Report),
+		Residuals:   slices.Clone(r.Residuals),
 	}
 	for i, l := range r.Levels {
 		out.Levels[i] = LevelToProto(l)
+	}
+	if g := r.GroundState; g != nil {
+		out.GroundState = &frustumv1.GroundState{Energy: g.Energy, Sector: g.Sector, Sites: slices.Clone(g.Sites),
+			Axis: vectorToProto(g.Axis), Sz: slices.Clone(g.Sz), SzSz: slices.Clone(g.SzSz), SpinSpin: slices.Clone(g.SpinSpin)}
 	}
 	return out
 }
@@ -198,9 +224,18 @@ func SpectrumResultFromProto(p *frustumv1.SpectrumResult) (string, *ed.SpectrumR
 		Truncated:   p.GetTruncated(),
 		TotalStates: p.GetTotalStates(),
 		Report:      ReportFromProto(p.GetEngine()),
+		Residuals:   slices.Clone(p.GetResiduals()),
 	}
 	for _, l := range p.GetLevels() {
 		out.Levels = append(out.Levels, LevelFromProto(l))
+	}
+	if g := p.GetGroundState(); g != nil {
+		axis, err := vector3("ground_state.axis", g.GetAxis())
+		if err != nil {
+			return "", nil, err
+		}
+		out.GroundState = &ed.GroundState{Energy: g.GetEnergy(), Sector: g.GetSector(), Sites: slices.Clone(g.GetSites()),
+			Axis: axis, Sz: slices.Clone(g.GetSz()), SzSz: slices.Clone(g.GetSzSz()), SpinSpin: slices.Clone(g.GetSpinSpin())}
 	}
 	return p.GetClusterName(), out, nil
 }
@@ -218,6 +253,11 @@ func ThermoResultToProto(name string, r *ed.ThermoResult) *frustumv1.ThermoResul
 		Susceptibility:          slices.Clone(r.Susceptibility),
 		SusceptibilityDirection: vectorToProto(r.Direction),
 		Engine:                  ReportToProto(r.Report),
+		EnergyError:             slices.Clone(r.EnergyError),
+		SpecificHeatError:       slices.Clone(r.SpecificHeatError),
+		EntropyError:            slices.Clone(r.EntropyError),
+		MagnetizationError:      slices.Clone(r.MagnetizationError),
+		SusceptibilityError:     slices.Clone(r.SusceptibilityError),
 	}
 }
 
@@ -242,6 +282,9 @@ func ThermoResultFromProto(p *frustumv1.ThermoResult) (string, *ed.ThermoResult,
 		Magnetization:  slices.Clone(p.GetMagnetization()),
 		Susceptibility: slices.Clone(p.GetSusceptibility()),
 		Report:         ReportFromProto(p.GetEngine()),
+		EnergyError:    slices.Clone(p.GetEnergyError()), SpecificHeatError: slices.Clone(p.GetSpecificHeatError()),
+		EntropyError: slices.Clone(p.GetEntropyError()), MagnetizationError: slices.Clone(p.GetMagnetizationError()),
+		SusceptibilityError: slices.Clone(p.GetSusceptibilityError()),
 	}, nil
 }
 

@@ -61,15 +61,16 @@ func TestJSONFieldNames(t *testing.T) {
 	spec := keysOf(t, SpectrumResultToProto("x", &ed.SpectrumResult{
 		Energies: []float64{-1}, Levels: []ed.Level{{Energy: -1, Degeneracy: 1, HasSz: true, HasTotalSpin: true}}, Report: sampleReport(),
 	}))
-	wantKeys(t, "SpectrumResult", spec, "clusterName", "field", "energies", "levels", "truncated", "totalStates", "engine")
+	wantKeys(t, "SpectrumResult", spec, "clusterName", "field", "energies", "levels", "truncated", "totalStates", "engine", "residuals", "groundState")
 	wantKeys(t, "Level", object(t, firstOf(t, spec["levels"])), "energy", "degeneracy", "sz", "totalSpin")
 	wantKeys(t, "EngineReport", object(t, spec["engine"]), "method", "route", "dimension", "sectors", "complex",
-		"memoryBytes", "diagonalizations", "solver", "warnings")
+		"memoryBytes", "diagonalizations", "solver", "warnings", "matvecs", "symmetry")
 	wantKeys(t, "Sector", object(t, firstOf(t, object(t, spec["engine"])["sectors"])), "label", "sz", "dimension")
 
 	thermo := keysOf(t, ThermoResultToProto("x", &ed.ThermoResult{Temperature: []float64{1}}))
 	wantKeys(t, "ThermoResult", thermo, "clusterName", "field", "temperature", "energy", "specificHeat", "entropy",
-		"magnetization", "susceptibility", "susceptibilityDirection", "engine")
+		"magnetization", "susceptibility", "susceptibilityDirection", "engine",
+		"energyError", "specificHeatError", "entropyError", "magnetizationError", "susceptibilityError")
 
 	mag := keysOf(t, MagnetizationResultToProto("x", &ed.MagnetizationResult{
 		Field:  []float64{0, 1},

@@ -4,6 +4,8 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"math"
+	"strconv"
 
 	"google.golang.org/protobuf/proto"
 
@@ -61,12 +63,21 @@ func findTask(name string) *task {
 
 var spectrumTask = &task{
 	name:     "spectrum",
-	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K]",
+	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K] [--method auto|full|lanczos] [--correlations] [--tol TOL] [--seed N] [--no-spatial-symmetry]",
 	about: `Prints the energy levels of the cluster at one field: each level's energy (K),
 its energy above the ground state, its degeneracy, and its total S^z and total
 spin S where those are good quantum numbers. --csv prints one row per level;
 with --json, "energies" holds every eigenvalue with multiplicity, ascending,
-and "levels" the grouped levels.`,
+and "levels" the grouped levels.
+
+--method auto (the default) diagonalizes fully where that fits and is
+cheap, and otherwise finds the lowest levels with Lanczos in symmetry
+sectors: total S^z, the one-dimensional representations of an abelian group
+of the cluster's symmetries (its declared ones, or the automorphisms found
+when it declares none) and spin inversion at S^z = 0. The Lanczos route
+reports the residual ||H y - E y|| of every level, and says which sectors
+and symmetries it used; --correlations adds the ground state's <S_i^z> and
+<S_i . S_j>.`,
 	example: `frustum spectrum --cluster testdata/dimer.json
 frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 --json`,
 	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
@@ -75,16 +86,47 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 			field  [3]float64
 			given  bool
 			levels int
+			method string
+			corr   bool
+			noSym  bool
+			lp     frustumv1.LanczosParameters
 		)
 		clusterFlag(fs, &path)
 		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
 		fs.funcFlag("levels", "print the lowest `K` energies only (default 0: all)", levelsFlag(&levels))
+		fs.stringFlag(&method, "method", "`METHOD`: auto (default), full or lanczos")
+		fs.boolFlag(&corr, "correlations", "also the ground state's <S_i^z> and <S_i . S_j> (Lanczos)")
+		fs.funcFlag("tol", "Lanczos residual tolerance `TOL`, relative to max(1, |E|) (default 1e-10)", func(s string) error {
+			v, err := strconv.ParseFloat(s, 64)
+			if err != nil || !(v > 0) || math.IsInf(v, 0) {
+				return fmt.Errorf("%q: want a positive number", s)
+			}
+			lp.Tolerance = v
+			return nil
+		})
+		fs.funcFlag("seed", "seed `N` of the Lanczos start vectors (default 0)", func(s string) error {
+			v, err := strconv.ParseUint(s, 10, 64)
+			if err != nil {
+				return fmt.Errorf("%q: want a whole number >= 0", s)
+			}
+			lp.Seed = v
+			return nil
+		})
+		fs.boolFlag(&noSym, "no-spatial-symmetry", "Lanczos in S^z sectors only, without the cluster's symmetries")
 		return func() (*frustumv1.JobSpec, error) {
+			switch method {
+			case "", "auto", "full", "lanczos":
+			default:
+				return nil, usagef("--method %q: want auto, full or lanczos", method)
+			}
 			c, err := loadCluster(path)
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels)}
+			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels), Method: method, Correlations: corr, NoSpatialSymmetry: noSym}
+			if lp.Tolerance != 0 || lp.Seed != 0 {
+				p.Lanczos = &lp
+			}
 			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Spectrum{Spectrum: p}}, nil
 		}
 	},
@@ -97,7 +139,7 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 
 var thermoTask = &task{
 	name:     "thermo",
-	synopsis: "--cluster FILE --temps GRID [--field Bx,By,Bz]",
+	synopsis: "--cluster FILE --temps GRID [--field Bx,By,Bz] [--method auto|full|ftlm] [--vectors R] [--steps M] [--seed N] [--no-spatial-symmetry]",
 	about: `Prints the thermodynamics of the cluster at one field, one row per
 temperature: the energy <H> (K), the specific heat C (k_B), the entropy S
 (k_B), the magnetization M along the field (mu_B; 0 at zero field) and the
@@ -106,28 +148,72 @@ field (mu_B/T, Van Vleck part included). All per cluster.
 
 A GRID is a number (5), a list (1,2,5), a linear range with both ends
 included (0:15:61) or a logarithmic one (log:0.5:300:100). Temperatures must
-be > 0 K.`,
+be > 0 K.
+
+--method auto (the default) diagonalizes fully where that fits, and
+otherwise uses finite-temperature Lanczos (FTLM) in symmetry sectors: R
+random vectors of M Lanczos steps per sector (--vectors, --steps; sectors of
+at most 400 states exactly), every value with its statistical error (one
+standard deviation, jackknife over the random vectors). FTLM gives M and chi
+where the moment along the field is g S^z with S^z conserved.`,
 	example: `frustum thermo --cluster testdata/dimer.json --temps log:0.5:300:100
 frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,2 --csv`,
 	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
 		var (
-			path  string
-			temps []float64
-			field [3]float64
-			given bool
+			path   string
+			temps  []float64
+			field  [3]float64
+			given  bool
+			method string
+			noSym  bool
+			fp     frustumv1.FtlmParameters
 		)
 		clusterFlag(fs, &path)
 		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
 		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
+		fs.stringFlag(&method, "method", "`METHOD`: auto (default), full or ftlm")
+		fs.funcFlag("vectors", "FTLM random vectors `R` per sector (default 20)", func(s string) error {
+			n, err := strconv.Atoi(s)
+			if err != nil || n < 2 {
+				return fmt.Errorf("%q: want a whole number >= 2", s)
+			}
+			fp.Vectors = int32(n)
+			return nil
+		})
+		fs.funcFlag("steps", "FTLM Lanczos steps `M` per vector (default 100)", func(s string) error {
+			n, err := strconv.Atoi(s)
+			if err != nil || n < 1 {
+				return fmt.Errorf("%q: want a whole number >= 1", s)
+			}
+			fp.Steps = int32(n)
+			return nil
+		})
+		fs.funcFlag("seed", "seed `N` of the FTLM random vectors (default 0)", func(s string) error {
+			v, err := strconv.ParseUint(s, 10, 64)
+			if err != nil {
+				return fmt.Errorf("%q: want a whole number >= 0", s)
+			}
+			fp.Seed = v
+			return nil
+		})
+		fs.boolFlag(&noSym, "no-spatial-symmetry", "FTLM in S^z sectors only, without the cluster's symmetries")
 		return func() (*frustumv1.JobSpec, error) {
 			if temps == nil {
 				return nil, usagef("--temps GRID is required")
+			}
+			switch method {
+			case "", "auto", "full", "ftlm":
+			default:
+				return nil, usagef("--method %q: want auto, full or ftlm", method)
 			}
 			c, err := loadCluster(path)
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:]}
+			p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:], Method: method, NoSpatialSymmetry: noSym}
+			if fp.Vectors != 0 || fp.Steps != 0 || fp.Seed != 0 {
+				p.Ftlm = &fp
+			}
 			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Thermo{Thermo: p}}, nil
 		}
 	},

@@ -293,6 +293,11 @@ var requestFlags = map[string]string{
 	"fields":       "--fields",
 	"direction":    "--direction",
 	"powder":       "--powder",
+	"method":       "--method",
+	"correlations": "--correlations",
+	"lanczos.tol":  "--tol",
+	"ftlm.vectors": "--vectors",
+	"ftlm.steps":   "--steps",
 	// The fit's parameters.
 	"data":            "--data",
 	"observable":      "--observable",

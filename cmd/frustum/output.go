@@ -123,7 +123,12 @@ func spectrumTable(w io.Writer, r *frustumv1.SpectrumResult) error {
 		what = fmt.Sprintf("lowest %d of %d states", len(r.GetEnergies()), r.GetTotalStates())
 	}
 	fmt.Fprintf(w, "Spectrum of %q at B = %s T: %s in %d levels\n\n", r.GetClusterName(), vector(r.GetField()), what, len(r.GetLevels()))
-	t := &table{header: []string{"level", "E (K)", "E - E0 (K)", "degeneracy", "Sz", "S"}}
+	header := []string{"level", "E (K)", "E - E0 (K)", "degeneracy", "Sz", "S"}
+	res := levelResiduals(r)
+	if res != nil {
+		header = append(header, "residual (K)")
+	}
+	t := &table{header: header}
 	e0 := 0.0
 	if len(r.GetLevels()) > 0 {
 		e0 = r.GetLevels()[0].GetEnergy()
@@ -136,13 +141,59 @@ func spectrumTable(w io.Writer, r *frustumv1.SpectrumResult) error {
 		if l.TotalSpin != nil {
 			s = half(l.GetTotalSpin())
 		}
-		t.add(strconv.Itoa(i+1), fixed(l.GetEnergy(), 4), fixed(l.GetEnergy()-e0, 4), strconv.Itoa(int(l.GetDegeneracy())), sz, s)
+		row := []string{strconv.Itoa(i + 1), fixed(l.GetEnergy(), 4), fixed(l.GetEnergy()-e0, 4), strconv.Itoa(int(l.GetDegeneracy())), sz, s}
+		if res != nil {
+			row = append(row, sig(res[i], 2))
+		}
+		t.add(row...)
 	}
 	if err := t.write(w); err != nil {
 		return err
 	}
 	fmt.Fprintln(w, `  Sz and S are shown where they are good quantum numbers ("-" where not).`)
+	if res != nil {
+		fmt.Fprintln(w, `  residual: the largest ||H y - E y|| of the level's Lanczos vectors.`)
+	}
+	if g := r.GetGroundState(); g != nil {
+		if err := groundStateTable(w, g); err != nil {
+			return err
+		}
+	}
 	return report(w, r.GetEngine())
+}
+
+// levelResiduals returns, per level, the largest residual of its energies
+// (the energies run through the levels in order), or nil without residuals.
+func levelResiduals(r *frustumv1.SpectrumResult) []float64 {
+	rs := r.GetResiduals()
+	if len(rs) == 0 {
+		return nil
+	}
+	out := make([]float64, len(r.GetLevels()))
+	k := 0
+	for i, l := range r.GetLevels() {
+		for j := 0; j < int(l.GetDegeneracy()) && k < len(rs); j++ {
+			out[i] = math.Max(out[i], rs[k])
+			k++
+		}
+	}
+	return out
+}
+
+// groundStateTable prints the ground state's local moments and its
+// correlations with the first site.
+func groundStateTable(w io.Writer, g *frustumv1.GroundState) error {
+	n := len(g.GetSites())
+	fmt.Fprintf(w, "\nGround state at E = %s K (sector %s); S^z along %s\n\n", fixed(g.GetEnergy(), 6), g.GetSector(), vector(g.GetAxis()))
+	t := &table{header: []string{"site", "label", "<S^z>", "<S_1 . S_j>", "<S_1^z S_j^z>"}}
+	for j := 0; j < n; j++ {
+		t.add(strconv.Itoa(j+1), g.GetSites()[j], fixed(at(g.GetSz(), j), 6), fixed(at(g.GetSpinSpin(), j), 6), fixed(at(g.GetSzSz(), j), 6))
+	}
+	if err := t.write(w); err != nil {
+		return err
+	}
+	fmt.Fprintln(w, "  Every pair <S_i . S_j> is in the --json output (groundState.spinSpin, N x N).")
+	return nil
 }
 
 func spectrumCSV(w io.Writer, r *frustumv1.SpectrumResult) error {
@@ -172,22 +223,55 @@ func thermoTable(w io.Writer, r *frustumv1.ThermoResult) error {
 	fmt.Fprintf(w, "Thermodynamics of %q per cluster at B = %s T; M and chi along %s\n\n",
 		r.GetClusterName(), vector(r.GetField()), vector(r.GetSusceptibilityDirection()))
 	t := &table{header: thermoHeader}
+	stat := len(r.GetEnergyError()) > 0
 	for i, T := range r.GetTemperature() {
+		if stat {
+			t.add(sig(T, 6), withError(at(r.GetEnergy(), i), at(r.GetEnergyError(), i)), withError(at(r.GetSpecificHeat(), i), at(r.GetSpecificHeatError(), i)),
+				withError(at(r.GetEntropy(), i), at(r.GetEntropyError(), i)), withError(at(r.GetMagnetization(), i), at(r.GetMagnetizationError(), i)),
+				withError(at(r.GetSusceptibility(), i), at(r.GetSusceptibilityError(), i)))
+			continue
+		}
 		t.add(sig(T, 6), fixed(at(r.GetEnergy(), i), 4), fixed(at(r.GetSpecificHeat(), i), 5),
 			fixed(at(r.GetEntropy(), i), 5), fixed(at(r.GetMagnetization(), i), 5), sig(at(r.GetSusceptibility(), i), 6))
 	}
 	if err := t.write(w); err != nil {
 		return err
 	}
+	if stat {
+		fmt.Fprintln(w, "  Statistical estimates: value +- one standard deviation (finite-temperature Lanczos).")
+	}
 	return report(w, r.GetEngine())
+}
+
+// withError prints v +- e with the error's two significant digits setting
+// the decimals; e = 0 prints v alone (an exact value).
+func withError(v, e float64) string {
+	switch {
+	case math.IsNaN(v):
+		return "NaN"
+	case e == 0 || math.IsNaN(e) || math.IsInf(e, 0):
+		return sig(v, 6)
+	}
+	d := max(0, 1-int(math.Floor(math.Log10(e))))
+	return fmt.Sprintf("%.*f +- %.*f", d, v, d, e)
 }
 
 func thermoCSV(w io.Writer, r *frustumv1.ThermoResult) error {
 	cw := csv.NewWriter(w)
-	cw.Write(thermoHeader)
+	stat := len(r.GetEnergyError()) > 0
+	header := thermoHeader
+	if stat {
+		header = append(append([]string(nil), thermoHeader...), "E error (K)", "C error (k_B)", "S error (k_B)", "M error (mu_B)", "chi error (mu_B/T)")
+	}
+	cw.Write(header)
 	for i, T := range r.GetTemperature() {
-		cw.Write([]string{num(T), num(at(r.GetEnergy(), i)), num(at(r.GetSpecificHeat(), i)), num(at(r.GetEntropy(), i)),
-			num(at(r.GetMagnetization(), i)), num(at(r.GetSusceptibility(), i))})
+		row := []string{num(T), num(at(r.GetEnergy(), i)), num(at(r.GetSpecificHeat(), i)), num(at(r.GetEntropy(), i)),
+			num(at(r.GetMagnetization(), i)), num(at(r.GetSusceptibility(), i))}
+		if stat {
+			row = append(row, num(at(r.GetEnergyError(), i)), num(at(r.GetSpecificHeatError(), i)), num(at(r.GetEntropyError(), i)),
+				num(at(r.GetMagnetizationError(), i)), num(at(r.GetSusceptibilityError(), i)))
+		}
+		cw.Write(row)
 	}
 	cw.Flush()
 	return cw.Error()
@@ -284,8 +368,14 @@ func report(w io.Writer, e *frustumv1.EngineReport) error {
 	if e.GetDiagonalizations() == 1 {
 		diag = "dense diagonalization"
 	}
+	if e.GetMatvecs() > 0 {
+		diag = fmt.Sprintf("sectors solved, %d Hamiltonian applications", e.GetMatvecs())
+	}
 	fmt.Fprintf(w, "\nEngine: %s of %d states, %s matrices, %d %s\n",
 		e.GetMethod(), e.GetDimension(), kind, e.GetDiagonalizations(), diag)
+	if e.GetSymmetry() != "" {
+		fmt.Fprintf(w, "Symmetry: %s\n", oneLine(e.GetSymmetry()))
+	}
 	if e.GetRoute() != "" {
 		fmt.Fprintf(w, "Route: %s\n", oneLine(e.GetRoute()))
 	}

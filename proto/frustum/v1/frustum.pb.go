@@ -351,9 +351,22 @@ type SpectrumParameters struct {
 	// field B (Bx, By, Bz) in T; zero when absent.
 	Field []float64 `protobuf:"fixed64,1,rep,packed,name=field,proto3" json:"field,omitempty"`
 	// levels K: return the lowest K eigenvalues; 0 means all.
-	Levels        int32 `protobuf:"varint,2,opt,name=levels,proto3" json:"levels,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Levels int32 `protobuf:"varint,2,opt,name=levels,proto3" json:"levels,omitempty"`
+	// method: "auto" (or empty: full diagonalization where it fits and all
+	// levels are asked for or the blocks are small, Lanczos otherwise),
+	// "full" or "lanczos". The result's engine.method says which ran.
+	Method string `protobuf:"bytes,3,opt,name=method,proto3" json:"method,omitempty"`
+	// lanczos tunes the Lanczos route.
+	Lanczos *LanczosParameters `protobuf:"bytes,4,opt,name=lanczos,proto3" json:"lanczos,omitempty"`
+	// correlations: also return the ground state's spin correlations
+	// (Lanczos route).
+	Correlations bool `protobuf:"varint,5,opt,name=correlations,proto3" json:"correlations,omitempty"`
+	// no_spatial_symmetry keeps the Lanczos route to S^z sectors (for checks
+	// and comparisons); by default the cluster's symmetries, or its
+	// automorphisms when it declares none, split the sectors further.
+	NoSpatialSymmetry bool `protobuf:"varint,6,opt,name=no_spatial_symmetry,json=noSpatialSymmetry,proto3" json:"no_spatial_symmetry,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *SpectrumParameters) Reset() {
@@ -400,20 +413,132 @@ func (x *SpectrumParameters) GetLevels() int32 {
 	return 0
 }
 
+func (x *SpectrumParameters) GetMethod() string {
+	if x != nil {
+		return x.Method
+	}
+	return ""
+}
+
+func (x *SpectrumParameters) GetLanczos() *LanczosParameters {
+	if x != nil {
+		return x.Lanczos
+	}
+	return nil
+}
+
+func (x *SpectrumParameters) GetCorrelations() bool {
+	if x != nil {
+		return x.Correlations
+	}
+	return false
+}
+
+func (x *SpectrumParameters) GetNoSpatialSymmetry() bool {
+	if x != nil {
+		return x.NoSpatialSymmetry
+	}
+	return false
+}
+
+// LanczosParameters tune the Lanczos route; zero values are the defaults.
+type LanczosParameters struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// tolerance: a Ritz pair (E, y) is converged when ||H y - E y|| <=
+	// tolerance max(1, |E|) (E in K); 1e-10 when 0.
+	Tolerance float64 `protobuf:"fixed64,1,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	// seed of the pseudo-random start vectors (the same seed gives the same
+	// result).
+	Seed uint64 `protobuf:"varint,2,opt,name=seed,proto3" json:"seed,omitempty"`
+	// max_iterations bounds the matrix-vector products per sector; 300 K +
+	// 1000 when 0.
+	MaxIterations int32 `protobuf:"varint,3,opt,name=max_iterations,json=maxIterations,proto3" json:"max_iterations,omitempty"`
+	// basis: the Krylov vectors kept; max(2K + 20, 40) when 0.
+	Basis         int32 `protobuf:"varint,4,opt,name=basis,proto3" json:"basis,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *LanczosParameters) Reset() {
+	*x = LanczosParameters{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *LanczosParameters) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*LanczosParameters) ProtoMessage() {}
+
+func (x *LanczosParameters) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use LanczosParameters.ProtoReflect.Descriptor instead.
+func (*LanczosParameters) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{5}
+}
+
+func (x *LanczosParameters) GetTolerance() float64 {
+	if x != nil {
+		return x.Tolerance
+	}
+	return 0
+}
+
+func (x *LanczosParameters) GetSeed() uint64 {
+	if x != nil {
+		return x.Seed
+	}
+	return 0
+}
+
+func (x *LanczosParameters) GetMaxIterations() int32 {
+	if x != nil {
+		return x.MaxIterations
+	}
+	return 0
+}
+
+func (x *LanczosParameters) GetBasis() int32 {
+	if x != nil {
+		return x.Basis
+	}
+	return 0
+}
+
 // ThermoParameters are the parameters of `frustum thermo`.
 type ThermoParameters struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// temperatures in K, each > 0.
 	Temperatures []float64 `protobuf:"fixed64,1,rep,packed,name=temperatures,proto3" json:"temperatures,omitempty"`
 	// field B (Bx, By, Bz) in T; zero when absent.
-	Field         []float64 `protobuf:"fixed64,2,rep,packed,name=field,proto3" json:"field,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Field []float64 `protobuf:"fixed64,2,rep,packed,name=field,proto3" json:"field,omitempty"`
+	// method: "auto" (or empty: full diagonalization where it fits, else
+	// finite-temperature Lanczos), "full" or "ftlm". The result's
+	// engine.method says which ran.
+	Method string `protobuf:"bytes,3,opt,name=method,proto3" json:"method,omitempty"`
+	// ftlm tunes the finite-temperature Lanczos route.
+	Ftlm *FtlmParameters `protobuf:"bytes,4,opt,name=ftlm,proto3" json:"ftlm,omitempty"`
+	// no_spatial_symmetry keeps FTLM to S^z sectors.
+	NoSpatialSymmetry bool `protobuf:"varint,5,opt,name=no_spatial_symmetry,json=noSpatialSymmetry,proto3" json:"no_spatial_symmetry,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *ThermoParameters) Reset() {
 	*x = ThermoParameters{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -425,7 +550,7 @@ func (x *ThermoParameters) String() string {
 func (*ThermoParameters) ProtoMessage() {}
 
 func (x *ThermoParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[5]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -438,7 +563,7 @@ func (x *ThermoParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ThermoParameters.ProtoReflect.Descriptor instead.
 func (*ThermoParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{5}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *ThermoParameters) GetTemperatures() []float64 {
@@ -453,6 +578,102 @@ func (x *ThermoParameters) GetField() []float64 {
 		return x.Field
 	}
 	return nil
+}
+
+func (x *ThermoParameters) GetMethod() string {
+	if x != nil {
+		return x.Method
+	}
+	return ""
+}
+
+func (x *ThermoParameters) GetFtlm() *FtlmParameters {
+	if x != nil {
+		return x.Ftlm
+	}
+	return nil
+}
+
+func (x *ThermoParameters) GetNoSpatialSymmetry() bool {
+	if x != nil {
+		return x.NoSpatialSymmetry
+	}
+	return false
+}
+
+// FtlmParameters tune finite-temperature Lanczos; zero values are the
+// defaults.
+type FtlmParameters struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// vectors: random vectors per sector, at least 2; 20 when 0.
+	Vectors int32 `protobuf:"varint,1,opt,name=vectors,proto3" json:"vectors,omitempty"`
+	// steps: the Lanczos depth of each; 100 when 0.
+	Steps int32 `protobuf:"varint,2,opt,name=steps,proto3" json:"steps,omitempty"`
+	// seed of the random vectors (the same seed gives the same result).
+	Seed uint64 `protobuf:"varint,3,opt,name=seed,proto3" json:"seed,omitempty"`
+	// exact_below: sectors of at most this many states are diagonalized
+	// exactly (no statistical error); 400 when 0, none when negative.
+	ExactBelow    int32 `protobuf:"varint,4,opt,name=exact_below,json=exactBelow,proto3" json:"exact_below,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *FtlmParameters) Reset() {
+	*x = FtlmParameters{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *FtlmParameters) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*FtlmParameters) ProtoMessage() {}
+
+func (x *FtlmParameters) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use FtlmParameters.ProtoReflect.Descriptor instead.
+func (*FtlmParameters) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{7}
+}
+
+func (x *FtlmParameters) GetVectors() int32 {
+	if x != nil {
+		return x.Vectors
+	}
+	return 0
+}
+
+func (x *FtlmParameters) GetSteps() int32 {
+	if x != nil {
+		return x.Steps
+	}
+	return 0
+}
+
+func (x *FtlmParameters) GetSeed() uint64 {
+	if x != nil {
+		return x.Seed
+	}
+	return 0
+}
+
+func (x *FtlmParameters) GetExactBelow() int32 {
+	if x != nil {
+		return x.ExactBelow
+	}
+	return 0
 }
 
 // MagnetizationParameters are the parameters of `frustum magnetization`.
@@ -477,7 +698,7 @@ type MagnetizationParameters struct {
 
 func (x *MagnetizationParameters) Reset() {
 	*x = MagnetizationParameters{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -489,7 +710,7 @@ func (x *MagnetizationParameters) String() string {
 func (*MagnetizationParameters) ProtoMessage() {}
 
 func (x *MagnetizationParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[6]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -502,7 +723,7 @@ func (x *MagnetizationParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationParameters.ProtoReflect.Descriptor instead.
 func (*MagnetizationParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{6}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *MagnetizationParameters) GetTemperatures() []float64 {
@@ -555,7 +776,7 @@ type Sector struct {
 
 func (x *Sector) Reset() {
 	*x = Sector{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -567,7 +788,7 @@ func (x *Sector) String() string {
 func (*Sector) ProtoMessage() {}
 
 func (x *Sector) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[7]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -580,7 +801,7 @@ func (x *Sector) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Sector.ProtoReflect.Descriptor instead.
 func (*Sector) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{7}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *Sector) GetLabel() string {
@@ -607,7 +828,8 @@ func (x *Sector) GetDimension() int64 {
 // EngineReport says what the engine decided and did, for the user to see.
 type EngineReport struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// method: "full diagonalization".
+	// method: "full diagonalization", "Lanczos" or "finite-temperature
+	// Lanczos".
 	Method string `protobuf:"bytes,1,opt,name=method,proto3" json:"method,omitempty"`
 	// route explains the path taken, for example why the field was applied
 	// analytically to a zero-field spectrum or why each field was diagonalized.
@@ -629,14 +851,19 @@ type EngineReport struct {
 	// solver names the dense eigensolver backend.
 	Solver string `protobuf:"bytes,8,opt,name=solver,proto3" json:"solver,omitempty"`
 	// warnings: anything in the result that could mislead.
-	Warnings      []string `protobuf:"bytes,9,rep,name=warnings,proto3" json:"warnings,omitempty"`
+	Warnings []string `protobuf:"bytes,9,rep,name=warnings,proto3" json:"warnings,omitempty"`
+	// matvecs counts the Hamiltonian applications of the Lanczos route.
+	Matvecs int64 `protobuf:"varint,11,opt,name=matvecs,proto3" json:"matvecs,omitempty"`
+	// symmetry: the sectors used beyond S^z (an abelian group of site
+	// permutations, spin inversion), or "no spatial symmetry".
+	Symmetry      string `protobuf:"bytes,12,opt,name=symmetry,proto3" json:"symmetry,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *EngineReport) Reset() {
 	*x = EngineReport{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -648,7 +875,7 @@ func (x *EngineReport) String() string {
 func (*EngineReport) ProtoMessage() {}
 
 func (x *EngineReport) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[8]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -661,7 +888,7 @@ func (x *EngineReport) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use EngineReport.ProtoReflect.Descriptor instead.
 func (*EngineReport) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{8}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *EngineReport) GetMethod() string {
@@ -727,6 +954,20 @@ func (x *EngineReport) GetWarnings() []string {
 	return nil
 }
 
+func (x *EngineReport) GetMatvecs() int64 {
+	if x != nil {
+		return x.Matvecs
+	}
+	return 0
+}
+
+func (x *EngineReport) GetSymmetry() string {
+	if x != nil {
+		return x.Symmetry
+	}
+	return ""
+}
+
 // Level is a group of degenerate eigenstates.
 type Level struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -745,7 +986,7 @@ type Level struct {
 
 func (x *Level) Reset() {
 	*x = Level{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -757,7 +998,7 @@ func (x *Level) String() string {
 func (*Level) ProtoMessage() {}
 
 func (x *Level) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[9]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -770,7 +1011,7 @@ func (x *Level) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Level.ProtoReflect.Descriptor instead.
 func (*Level) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{9}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *Level) GetEnergy() float64 {
@@ -817,15 +1058,20 @@ type SpectrumResult struct {
 	// truncated is true when energies holds fewer than total_states values.
 	Truncated bool `protobuf:"varint,5,opt,name=truncated,proto3" json:"truncated,omitempty"`
 	// total_states is the dimension of the Hilbert space.
-	TotalStates   int64         `protobuf:"varint,6,opt,name=total_states,json=totalStates,proto3" json:"total_states,omitempty"`
-	Engine        *EngineReport `protobuf:"bytes,7,opt,name=engine,proto3" json:"engine,omitempty"`
+	TotalStates int64         `protobuf:"varint,6,opt,name=total_states,json=totalStates,proto3" json:"total_states,omitempty"`
+	Engine      *EngineReport `protobuf:"bytes,7,opt,name=engine,proto3" json:"engine,omitempty"`
+	// residuals: ||H y - E y|| (K) of every energy's Ritz vector, from the
+	// Lanczos route; empty after full diagonalization.
+	Residuals []float64 `protobuf:"fixed64,8,rep,packed,name=residuals,proto3" json:"residuals,omitempty"`
+	// ground_state: its spin correlations, when asked for.
+	GroundState   *GroundState `protobuf:"bytes,9,opt,name=ground_state,json=groundState,proto3" json:"ground_state,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *SpectrumResult) Reset() {
 	*x = SpectrumResult{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -837,7 +1083,7 @@ func (x *SpectrumResult) String() string {
 func (*SpectrumResult) ProtoMessage() {}
 
 func (x *SpectrumResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[10]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -850,7 +1096,7 @@ func (x *SpectrumResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SpectrumResult.ProtoReflect.Descriptor instead.
 func (*SpectrumResult) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{10}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *SpectrumResult) GetClusterName() string {
@@ -902,6 +1148,124 @@ func (x *SpectrumResult) GetEngine() *EngineReport {
 	return nil
 }
 
+func (x *SpectrumResult) GetResiduals() []float64 {
+	if x != nil {
+		return x.Residuals
+	}
+	return nil
+}
+
+func (x *SpectrumResult) GetGroundState() *GroundState {
+	if x != nil {
+		return x.GroundState
+	}
+	return nil
+}
+
+// GroundState holds the spin correlations of the ground state found, in the
+// symmetry sector named: <S_i . S_j> and <S_i^z S_j^z> as N x N row-major
+// matrices (site order of the cluster), and <S_i^z>, with S^z along axis.
+type GroundState struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// energy in K.
+	Energy float64 `protobuf:"fixed64,1,opt,name=energy,proto3" json:"energy,omitempty"`
+	// sector: the S^z and symmetry sector of the state, for example
+	// "Sz=0, T1:k=0/16, +".
+	Sector string `protobuf:"bytes,2,opt,name=sector,proto3" json:"sector,omitempty"`
+	// sites: the site labels, in the order of the matrices.
+	Sites []string `protobuf:"bytes,3,rep,name=sites,proto3" json:"sites,omitempty"`
+	// axis: the quantization axis of S^z (the field direction where the
+	// engine turned the frame onto it, else z).
+	Axis []float64 `protobuf:"fixed64,4,rep,packed,name=axis,proto3" json:"axis,omitempty"`
+	// sz: <S_i^z>, one per site.
+	Sz []float64 `protobuf:"fixed64,5,rep,packed,name=sz,proto3" json:"sz,omitempty"`
+	// sz_sz: <S_i^z S_j^z>, N x N, row-major.
+	SzSz []float64 `protobuf:"fixed64,6,rep,packed,name=sz_sz,json=szSz,proto3" json:"sz_sz,omitempty"`
+	// spin_spin: <S_i . S_j>, N x N, row-major; the diagonal is S_i (S_i + 1).
+	SpinSpin      []float64 `protobuf:"fixed64,7,rep,packed,name=spin_spin,json=spinSpin,proto3" json:"spin_spin,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *GroundState) Reset() {
+	*x = GroundState{}
+	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *GroundState) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*GroundState) ProtoMessage() {}
+
+func (x *GroundState) ProtoReflect() protoreflect.Message {
+	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use GroundState.ProtoReflect.Descriptor instead.
+func (*GroundState) Descriptor() ([]byte, []int) {
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{13}
+}
+
+func (x *GroundState) GetEnergy() float64 {
+	if x != nil {
+		return x.Energy
+	}
+	return 0
+}
+
+func (x *GroundState) GetSector() string {
+	if x != nil {
+		return x.Sector
+	}
+	return ""
+}
+
+func (x *GroundState) GetSites() []string {
+	if x != nil {
+		return x.Sites
+	}
+	return nil
+}
+
+func (x *GroundState) GetAxis() []float64 {
+	if x != nil {
+		return x.Axis
+	}
+	return nil
+}
+
+func (x *GroundState) GetSz() []float64 {
+	if x != nil {
+		return x.Sz
+	}
+	return nil
+}
+
+func (x *GroundState) GetSzSz() []float64 {
+	if x != nil {
+		return x.SzSz
+	}
+	return nil
+}
+
+func (x *GroundState) GetSpinSpin() []float64 {
+	if x != nil {
+		return x.SpinSpin
+	}
+	return nil
+}
+
 // ThermoResult is the result of `frustum thermo`; parallel arrays, one entry
 // per temperature.
 type ThermoResult struct {
@@ -925,13 +1289,21 @@ type ThermoResult struct {
 	// susceptibility_direction is the unit vector along which M and chi are taken.
 	SusceptibilityDirection []float64     `protobuf:"fixed64,9,rep,packed,name=susceptibility_direction,json=susceptibilityDirection,proto3" json:"susceptibility_direction,omitempty"`
 	Engine                  *EngineReport `protobuf:"bytes,10,opt,name=engine,proto3" json:"engine,omitempty"`
-	unknownFields           protoimpl.UnknownFields
-	sizeCache               protoimpl.SizeCache
+	// The one-standard-deviation statistical errors of every value, from
+	// finite-temperature Lanczos (empty after full diagonalization, which is
+	// exact), in the units of the values.
+	EnergyError         []float64 `protobuf:"fixed64,11,rep,packed,name=energy_error,json=energyError,proto3" json:"energy_error,omitempty"`
+	SpecificHeatError   []float64 `protobuf:"fixed64,12,rep,packed,name=specific_heat_error,json=specificHeatError,proto3" json:"specific_heat_error,omitempty"`
+	EntropyError        []float64 `protobuf:"fixed64,13,rep,packed,name=entropy_error,json=entropyError,proto3" json:"entropy_error,omitempty"`
+	MagnetizationError  []float64 `protobuf:"fixed64,14,rep,packed,name=magnetization_error,json=magnetizationError,proto3" json:"magnetization_error,omitempty"`
+	SusceptibilityError []float64 `protobuf:"fixed64,15,rep,packed,name=susceptibility_error,json=susceptibilityError,proto3" json:"susceptibility_error,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
 }
 
 func (x *ThermoResult) Reset() {
 	*x = ThermoResult{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -943,7 +1315,7 @@ func (x *ThermoResult) String() string {
 func (*ThermoResult) ProtoMessage() {}
 
 func (x *ThermoResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[11]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -956,7 +1328,7 @@ func (x *ThermoResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ThermoResult.ProtoReflect.Descriptor instead.
 func (*ThermoResult) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{11}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *ThermoResult) GetClusterName() string {
@@ -1029,6 +1401,41 @@ func (x *ThermoResult) GetEngine() *EngineReport {
 	return nil
 }
 
+func (x *ThermoResult) GetEnergyError() []float64 {
+	if x != nil {
+		return x.EnergyError
+	}
+	return nil
+}
+
+func (x *ThermoResult) GetSpecificHeatError() []float64 {
+	if x != nil {
+		return x.SpecificHeatError
+	}
+	return nil
+}
+
+func (x *ThermoResult) GetEntropyError() []float64 {
+	if x != nil {
+		return x.EntropyError
+	}
+	return nil
+}
+
+func (x *ThermoResult) GetMagnetizationError() []float64 {
+	if x != nil {
+		return x.MagnetizationError
+	}
+	return nil
+}
+
+func (x *ThermoResult) GetSusceptibilityError() []float64 {
+	if x != nil {
+		return x.SusceptibilityError
+	}
+	return nil
+}
+
 // GroupCurve holds one group's moment along the field, one value per field,
 // in mu_B.
 type GroupCurve struct {
@@ -1040,7 +1447,7 @@ type GroupCurve struct {
 
 func (x *GroupCurve) Reset() {
 	*x = GroupCurve{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1052,7 +1459,7 @@ func (x *GroupCurve) String() string {
 func (*GroupCurve) ProtoMessage() {}
 
 func (x *GroupCurve) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[12]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1065,7 +1472,7 @@ func (x *GroupCurve) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GroupCurve.ProtoReflect.Descriptor instead.
 func (*GroupCurve) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{12}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *GroupCurve) GetValues() []float64 {
@@ -1093,7 +1500,7 @@ type MagnetizationCurve struct {
 
 func (x *MagnetizationCurve) Reset() {
 	*x = MagnetizationCurve{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1105,7 +1512,7 @@ func (x *MagnetizationCurve) String() string {
 func (*MagnetizationCurve) ProtoMessage() {}
 
 func (x *MagnetizationCurve) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[13]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1118,7 +1525,7 @@ func (x *MagnetizationCurve) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationCurve.ProtoReflect.Descriptor instead.
 func (*MagnetizationCurve) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{13}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *MagnetizationCurve) GetTemperature() float64 {
@@ -1173,7 +1580,7 @@ type MagnetizationResult struct {
 
 func (x *MagnetizationResult) Reset() {
 	*x = MagnetizationResult{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1185,7 +1592,7 @@ func (x *MagnetizationResult) String() string {
 func (*MagnetizationResult) ProtoMessage() {}
 
 func (x *MagnetizationResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[14]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1198,7 +1605,7 @@ func (x *MagnetizationResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MagnetizationResult.ProtoReflect.Descriptor instead.
 func (*MagnetizationResult) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{14}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *MagnetizationResult) GetClusterName() string {
@@ -1284,7 +1691,7 @@ type PowderReport struct {
 
 func (x *PowderReport) Reset() {
 	*x = PowderReport{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1296,7 +1703,7 @@ func (x *PowderReport) String() string {
 func (*PowderReport) ProtoMessage() {}
 
 func (x *PowderReport) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[15]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1309,7 +1716,7 @@ func (x *PowderReport) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PowderReport.ProtoReflect.Descriptor instead.
 func (*PowderReport) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{15}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *PowderReport) GetRule() string {
@@ -1398,7 +1805,7 @@ type MeasuredData struct {
 
 func (x *MeasuredData) Reset() {
 	*x = MeasuredData{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1410,7 +1817,7 @@ func (x *MeasuredData) String() string {
 func (*MeasuredData) ProtoMessage() {}
 
 func (x *MeasuredData) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[16]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1423,7 +1830,7 @@ func (x *MeasuredData) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use MeasuredData.ProtoReflect.Descriptor instead.
 func (*MeasuredData) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{16}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *MeasuredData) GetName() string {
@@ -1488,7 +1895,7 @@ type FitParameter struct {
 
 func (x *FitParameter) Reset() {
 	*x = FitParameter{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1500,7 +1907,7 @@ func (x *FitParameter) String() string {
 func (*FitParameter) ProtoMessage() {}
 
 func (x *FitParameter) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[17]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1513,7 +1920,7 @@ func (x *FitParameter) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use FitParameter.ProtoReflect.Descriptor instead.
 func (*FitParameter) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{17}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{20}
 }
 
 func (x *FitParameter) GetName() string {
@@ -1587,7 +1994,7 @@ type FitParameters struct {
 
 func (x *FitParameters) Reset() {
 	*x = FitParameters{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1599,7 +2006,7 @@ func (x *FitParameters) String() string {
 func (*FitParameters) ProtoMessage() {}
 
 func (x *FitParameters) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[18]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1612,7 +2019,7 @@ func (x *FitParameters) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use FitParameters.ProtoReflect.Descriptor instead.
 func (*FitParameters) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{18}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *FitParameters) GetData() *MeasuredData {
@@ -1697,7 +2104,7 @@ type FittedParameter struct {
 
 func (x *FittedParameter) Reset() {
 	*x = FittedParameter{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1709,7 +2116,7 @@ func (x *FittedParameter) String() string {
 func (*FittedParameter) ProtoMessage() {}
 
 func (x *FittedParameter) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[19]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1722,7 +2129,7 @@ func (x *FittedParameter) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use FittedParameter.ProtoReflect.Descriptor instead.
 func (*FittedParameter) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{19}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *FittedParameter) GetName() string {
@@ -1783,7 +2190,7 @@ type LinkCoefficients struct {
 
 func (x *LinkCoefficients) Reset() {
 	*x = LinkCoefficients{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1795,7 +2202,7 @@ func (x *LinkCoefficients) String() string {
 func (*LinkCoefficients) ProtoMessage() {}
 
 func (x *LinkCoefficients) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[20]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1808,7 +2215,7 @@ func (x *LinkCoefficients) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use LinkCoefficients.ProtoReflect.Descriptor instead.
 func (*LinkCoefficients) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{20}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{23}
 }
 
 func (x *LinkCoefficients) GetTemperature() float64 {
@@ -1858,7 +2265,7 @@ type Correlation struct {
 
 func (x *Correlation) Reset() {
 	*x = Correlation{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[24]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1870,7 +2277,7 @@ func (x *Correlation) String() string {
 func (*Correlation) ProtoMessage() {}
 
 func (x *Correlation) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[21]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[24]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1883,7 +2290,7 @@ func (x *Correlation) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Correlation.ProtoReflect.Descriptor instead.
 func (*Correlation) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{21}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{24}
 }
 
 func (x *Correlation) GetA() string {
@@ -1951,7 +2358,7 @@ type ModelFit struct {
 
 func (x *ModelFit) Reset() {
 	*x = ModelFit{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[25]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1963,7 +2370,7 @@ func (x *ModelFit) String() string {
 func (*ModelFit) ProtoMessage() {}
 
 func (x *ModelFit) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[22]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[25]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1976,7 +2383,7 @@ func (x *ModelFit) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ModelFit.ProtoReflect.Descriptor instead.
 func (*ModelFit) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{22}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{25}
 }
 
 func (x *ModelFit) GetName() string {
@@ -2138,7 +2545,7 @@ type FitResult struct {
 
 func (x *FitResult) Reset() {
 	*x = FitResult{}
-	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2150,7 +2557,7 @@ func (x *FitResult) String() string {
 func (*FitResult) ProtoMessage() {}
 
 func (x *FitResult) ProtoReflect() protoreflect.Message {
-	mi := &file_frustum_v1_frustum_proto_msgTypes[23]
+	mi := &file_frustum_v1_frustum_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2163,7 +2570,7 @@ func (x *FitResult) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use FitResult.ProtoReflect.Descriptor instead.
 func (*FitResult) Descriptor() ([]byte, []int) {
-	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{23}
+	return file_frustum_v1_frustum_proto_rawDescGZIP(), []int{26}
 }
 
 func (x *FitResult) GetObservable() string {
@@ -2294,13 +2701,31 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x05bonds\x18\x03 \x03(\v2\x10.frustum.v1.BondR\x05bonds\x124\n" +
 	"\n" +
 	"symmetries\x18\x04 \x03(\v2\x14.frustum.v1.SymmetryR\n" +
-	"symmetries\"B\n" +
+	"symmetries\"\xe7\x01\n" +
 	"\x12SpectrumParameters\x12\x14\n" +
 	"\x05field\x18\x01 \x03(\x01R\x05field\x12\x16\n" +
-	"\x06levels\x18\x02 \x01(\x05R\x06levels\"L\n" +
+	"\x06levels\x18\x02 \x01(\x05R\x06levels\x12\x16\n" +
+	"\x06method\x18\x03 \x01(\tR\x06method\x127\n" +
+	"\alanczos\x18\x04 \x01(\v2\x1d.frustum.v1.LanczosParametersR\alanczos\x12\"\n" +
+	"\fcorrelations\x18\x05 \x01(\bR\fcorrelations\x12.\n" +
+	"\x13no_spatial_symmetry\x18\x06 \x01(\bR\x11noSpatialSymmetry\"\x82\x01\n" +
+	"\x11LanczosParameters\x12\x1c\n" +
+	"\ttolerance\x18\x01 \x01(\x01R\ttolerance\x12\x12\n" +
+	"\x04seed\x18\x02 \x01(\x04R\x04seed\x12%\n" +
+	"\x0emax_iterations\x18\x03 \x01(\x05R\rmaxIterations\x12\x14\n" +
+	"\x05basis\x18\x04 \x01(\x05R\x05basis\"\xc4\x01\n" +
 	"\x10ThermoParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x14\n" +
-	"\x05field\x18\x02 \x03(\x01R\x05field\"\xb3\x01\n" +
+	"\x05field\x18\x02 \x03(\x01R\x05field\x12\x16\n" +
+	"\x06method\x18\x03 \x01(\tR\x06method\x12.\n" +
+	"\x04ftlm\x18\x04 \x01(\v2\x1a.frustum.v1.FtlmParametersR\x04ftlm\x12.\n" +
+	"\x13no_spatial_symmetry\x18\x05 \x01(\bR\x11noSpatialSymmetry\"u\n" +
+	"\x0eFtlmParameters\x12\x18\n" +
+	"\avectors\x18\x01 \x01(\x05R\avectors\x12\x14\n" +
+	"\x05steps\x18\x02 \x01(\x05R\x05steps\x12\x12\n" +
+	"\x04seed\x18\x03 \x01(\x04R\x04seed\x12\x1f\n" +
+	"\vexact_below\x18\x04 \x01(\x05R\n" +
+	"exactBelow\"\xb3\x01\n" +
 	"\x17MagnetizationParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x16\n" +
 	"\x06fields\x18\x02 \x03(\x01R\x06fields\x12\x1c\n" +
@@ -2311,7 +2736,7 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x13\n" +
 	"\x02sz\x18\x02 \x01(\x01H\x00R\x02sz\x88\x01\x01\x12\x1c\n" +
 	"\tdimension\x18\x03 \x01(\x03R\tdimensionB\x05\n" +
-	"\x03_sz\"\xab\x02\n" +
+	"\x03_sz\"\xe1\x02\n" +
 	"\fEngineReport\x12\x16\n" +
 	"\x06method\x18\x01 \x01(\tR\x06method\x12\x14\n" +
 	"\x05route\x18\x02 \x01(\tR\x05route\x12\x1c\n" +
@@ -2321,7 +2746,9 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\fmemory_bytes\x18\x06 \x01(\x03R\vmemoryBytes\x12*\n" +
 	"\x10diagonalizations\x18\a \x01(\x03R\x10diagonalizations\x12\x16\n" +
 	"\x06solver\x18\b \x01(\tR\x06solver\x12\x1a\n" +
-	"\bwarnings\x18\t \x03(\tR\bwarningsJ\x04\b\n" +
+	"\bwarnings\x18\t \x03(\tR\bwarnings\x12\x18\n" +
+	"\amatvecs\x18\v \x01(\x03R\amatvecs\x12\x1a\n" +
+	"\bsymmetry\x18\f \x01(\tR\bsymmetryJ\x04\b\n" +
 	"\x10\v\"\x8e\x01\n" +
 	"\x05Level\x12\x16\n" +
 	"\x06energy\x18\x01 \x01(\x01R\x06energy\x12\x1e\n" +
@@ -2332,7 +2759,7 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\n" +
 	"total_spin\x18\x04 \x01(\x01H\x01R\ttotalSpin\x88\x01\x01B\x05\n" +
 	"\x03_szB\r\n" +
-	"\v_total_spin\"\x83\x02\n" +
+	"\v_total_spin\"\xdd\x02\n" +
 	"\x0eSpectrumResult\x12!\n" +
 	"\fcluster_name\x18\x01 \x01(\tR\vclusterName\x12\x14\n" +
 	"\x05field\x18\x02 \x03(\x01R\x05field\x12\x1a\n" +
@@ -2340,7 +2767,17 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x06levels\x18\x04 \x03(\v2\x11.frustum.v1.LevelR\x06levels\x12\x1c\n" +
 	"\ttruncated\x18\x05 \x01(\bR\ttruncated\x12!\n" +
 	"\ftotal_states\x18\x06 \x01(\x03R\vtotalStates\x120\n" +
-	"\x06engine\x18\a \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\"\xfb\x02\n" +
+	"\x06engine\x18\a \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\x12\x1c\n" +
+	"\tresiduals\x18\b \x03(\x01R\tresiduals\x12:\n" +
+	"\fground_state\x18\t \x01(\v2\x17.frustum.v1.GroundStateR\vgroundState\"\xa9\x01\n" +
+	"\vGroundState\x12\x16\n" +
+	"\x06energy\x18\x01 \x01(\x01R\x06energy\x12\x16\n" +
+	"\x06sector\x18\x02 \x01(\tR\x06sector\x12\x14\n" +
+	"\x05sites\x18\x03 \x03(\tR\x05sites\x12\x12\n" +
+	"\x04axis\x18\x04 \x03(\x01R\x04axis\x12\x0e\n" +
+	"\x02sz\x18\x05 \x03(\x01R\x02sz\x12\x13\n" +
+	"\x05sz_sz\x18\x06 \x03(\x01R\x04szSz\x12\x1b\n" +
+	"\tspin_spin\x18\a \x03(\x01R\bspinSpin\"\xd7\x04\n" +
 	"\fThermoResult\x12!\n" +
 	"\fcluster_name\x18\x01 \x01(\tR\vclusterName\x12\x14\n" +
 	"\x05field\x18\x02 \x03(\x01R\x05field\x12 \n" +
@@ -2352,7 +2789,12 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x0esusceptibility\x18\b \x03(\x01R\x0esusceptibility\x129\n" +
 	"\x18susceptibility_direction\x18\t \x03(\x01R\x17susceptibilityDirection\x120\n" +
 	"\x06engine\x18\n" +
-	" \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\"$\n" +
+	" \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\x12!\n" +
+	"\fenergy_error\x18\v \x03(\x01R\venergyError\x12.\n" +
+	"\x13specific_heat_error\x18\f \x03(\x01R\x11specificHeatError\x12#\n" +
+	"\rentropy_error\x18\r \x03(\x01R\fentropyError\x12/\n" +
+	"\x13magnetization_error\x18\x0e \x03(\x01R\x12magnetizationError\x121\n" +
+	"\x14susceptibility_error\x18\x0f \x03(\x01R\x13susceptibilityError\"$\n" +
 	"\n" +
 	"GroupCurve\x12\x16\n" +
 	"\x06values\x18\x01 \x03(\x01R\x06values\"\x9b\x02\n" +
@@ -2498,64 +2940,70 @@ func file_frustum_v1_frustum_proto_rawDescGZIP() []byte {
 	return file_frustum_v1_frustum_proto_rawDescData
 }
 
-var file_frustum_v1_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 26)
+var file_frustum_v1_frustum_proto_msgTypes = make([]protoimpl.MessageInfo, 29)
 var file_frustum_v1_frustum_proto_goTypes = []any{
 	(*Site)(nil),                    // 0: frustum.v1.Site
 	(*Bond)(nil),                    // 1: frustum.v1.Bond
 	(*Symmetry)(nil),                // 2: frustum.v1.Symmetry
 	(*Cluster)(nil),                 // 3: frustum.v1.Cluster
 	(*SpectrumParameters)(nil),      // 4: frustum.v1.SpectrumParameters
-	(*ThermoParameters)(nil),        // 5: frustum.v1.ThermoParameters
-	(*MagnetizationParameters)(nil), // 6: frustum.v1.MagnetizationParameters
-	(*Sector)(nil),                  // 7: frustum.v1.Sector
-	(*EngineReport)(nil),            // 8: frustum.v1.EngineReport
-	(*Level)(nil),                   // 9: frustum.v1.Level
-	(*SpectrumResult)(nil),          // 10: frustum.v1.SpectrumResult
-	(*ThermoResult)(nil),            // 11: frustum.v1.ThermoResult
-	(*GroupCurve)(nil),              // 12: frustum.v1.GroupCurve
-	(*MagnetizationCurve)(nil),      // 13: frustum.v1.MagnetizationCurve
-	(*MagnetizationResult)(nil),     // 14: frustum.v1.MagnetizationResult
-	(*PowderReport)(nil),            // 15: frustum.v1.PowderReport
-	(*MeasuredData)(nil),            // 16: frustum.v1.MeasuredData
-	(*FitParameter)(nil),            // 17: frustum.v1.FitParameter
-	(*FitParameters)(nil),           // 18: frustum.v1.FitParameters
-	(*FittedParameter)(nil),         // 19: frustum.v1.FittedParameter
-	(*LinkCoefficients)(nil),        // 20: frustum.v1.LinkCoefficients
-	(*Correlation)(nil),             // 21: frustum.v1.Correlation
-	(*ModelFit)(nil),                // 22: frustum.v1.ModelFit
-	(*FitResult)(nil),               // 23: frustum.v1.FitResult
-	nil,                             // 24: frustum.v1.MagnetizationCurve.GroupsEntry
-	nil,                             // 25: frustum.v1.MagnetizationResult.GroupSaturationEntry
+	(*LanczosParameters)(nil),       // 5: frustum.v1.LanczosParameters
+	(*ThermoParameters)(nil),        // 6: frustum.v1.ThermoParameters
+	(*FtlmParameters)(nil),          // 7: frustum.v1.FtlmParameters
+	(*MagnetizationParameters)(nil), // 8: frustum.v1.MagnetizationParameters
+	(*Sector)(nil),                  // 9: frustum.v1.Sector
+	(*EngineReport)(nil),            // 10: frustum.v1.EngineReport
+	(*Level)(nil),                   // 11: frustum.v1.Level
+	(*SpectrumResult)(nil),          // 12: frustum.v1.SpectrumResult
+	(*GroundState)(nil),             // 13: frustum.v1.GroundState
+	(*ThermoResult)(nil),            // 14: frustum.v1.ThermoResult
+	(*GroupCurve)(nil),              // 15: frustum.v1.GroupCurve
+	(*MagnetizationCurve)(nil),      // 16: frustum.v1.MagnetizationCurve
+	(*MagnetizationResult)(nil),     // 17: frustum.v1.MagnetizationResult
+	(*PowderReport)(nil),            // 18: frustum.v1.PowderReport
+	(*MeasuredData)(nil),            // 19: frustum.v1.MeasuredData
+	(*FitParameter)(nil),            // 20: frustum.v1.FitParameter
+	(*FitParameters)(nil),           // 21: frustum.v1.FitParameters
+	(*FittedParameter)(nil),         // 22: frustum.v1.FittedParameter
+	(*LinkCoefficients)(nil),        // 23: frustum.v1.LinkCoefficients
+	(*Correlation)(nil),             // 24: frustum.v1.Correlation
+	(*ModelFit)(nil),                // 25: frustum.v1.ModelFit
+	(*FitResult)(nil),               // 26: frustum.v1.FitResult
+	nil,                             // 27: frustum.v1.MagnetizationCurve.GroupsEntry
+	nil,                             // 28: frustum.v1.MagnetizationResult.GroupSaturationEntry
 }
 var file_frustum_v1_frustum_proto_depIdxs = []int32{
 	0,  // 0: frustum.v1.Cluster.sites:type_name -> frustum.v1.Site
 	1,  // 1: frustum.v1.Cluster.bonds:type_name -> frustum.v1.Bond
 	2,  // 2: frustum.v1.Cluster.symmetries:type_name -> frustum.v1.Symmetry
-	7,  // 3: frustum.v1.EngineReport.sectors:type_name -> frustum.v1.Sector
-	9,  // 4: frustum.v1.SpectrumResult.levels:type_name -> frustum.v1.Level
-	8,  // 5: frustum.v1.SpectrumResult.engine:type_name -> frustum.v1.EngineReport
-	8,  // 6: frustum.v1.ThermoResult.engine:type_name -> frustum.v1.EngineReport
-	24, // 7: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
-	13, // 8: frustum.v1.MagnetizationResult.curves:type_name -> frustum.v1.MagnetizationCurve
-	8,  // 9: frustum.v1.MagnetizationResult.engine:type_name -> frustum.v1.EngineReport
-	25, // 10: frustum.v1.MagnetizationResult.group_saturation:type_name -> frustum.v1.MagnetizationResult.GroupSaturationEntry
-	15, // 11: frustum.v1.MagnetizationResult.powder:type_name -> frustum.v1.PowderReport
-	16, // 12: frustum.v1.FitParameters.data:type_name -> frustum.v1.MeasuredData
-	3,  // 13: frustum.v1.FitParameters.models:type_name -> frustum.v1.Cluster
-	17, // 14: frustum.v1.FitParameters.vary:type_name -> frustum.v1.FitParameter
-	19, // 15: frustum.v1.ModelFit.parameters:type_name -> frustum.v1.FittedParameter
-	20, // 16: frustum.v1.ModelFit.links:type_name -> frustum.v1.LinkCoefficients
-	21, // 17: frustum.v1.ModelFit.correlations:type_name -> frustum.v1.Correlation
-	3,  // 18: frustum.v1.ModelFit.cluster:type_name -> frustum.v1.Cluster
-	8,  // 19: frustum.v1.ModelFit.engine:type_name -> frustum.v1.EngineReport
-	15, // 20: frustum.v1.ModelFit.powder:type_name -> frustum.v1.PowderReport
-	22, // 21: frustum.v1.FitResult.models:type_name -> frustum.v1.ModelFit
-	12, // 22: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
-	23, // [23:23] is the sub-list for method output_type
-	23, // [23:23] is the sub-list for method input_type
-	23, // [23:23] is the sub-list for extension type_name
-	23, // [23:23] is the sub-list for extension extendee
-	0,  // [0:23] is the sub-list for field type_name
+	5,  // 3: frustum.v1.SpectrumParameters.lanczos:type_name -> frustum.v1.LanczosParameters
+	7,  // 4: frustum.v1.ThermoParameters.ftlm:type_name -> frustum.v1.FtlmParameters
+	9,  // 5: frustum.v1.EngineReport.sectors:type_name -> frustum.v1.Sector
+	11, // 6: frustum.v1.SpectrumResult.levels:type_name -> frustum.v1.Level
+	10, // 7: frustum.v1.SpectrumResult.engine:type_name -> frustum.v1.EngineReport
+	13, // 8: frustum.v1.SpectrumResult.ground_state:type_name -> frustum.v1.GroundState
+	10, // 9: frustum.v1.ThermoResult.engine:type_name -> frustum.v1.EngineReport
+	27, // 10: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
+	16, // 11: frustum.v1.MagnetizationResult.curves:type_name -> frustum.v1.MagnetizationCurve
+	10, // 12: frustum.v1.MagnetizationResult.engine:type_name -> frustum.v1.EngineReport
+	28, // 13: frustum.v1.MagnetizationResult.group_saturation:type_name -> frustum.v1.MagnetizationResult.GroupSaturationEntry
+	18, // 14: frustum.v1.MagnetizationResult.powder:type_name -> frustum.v1.PowderReport
+	19, // 15: frustum.v1.FitParameters.data:type_name -> frustum.v1.MeasuredData
+	3,  // 16: frustum.v1.FitParameters.models:type_name -> frustum.v1.Cluster
+	20, // 17: frustum.v1.FitParameters.vary:type_name -> frustum.v1.FitParameter
+	22, // 18: frustum.v1.ModelFit.parameters:type_name -> frustum.v1.FittedParameter
+	23, // 19: frustum.v1.ModelFit.links:type_name -> frustum.v1.LinkCoefficients
+	24, // 20: frustum.v1.ModelFit.correlations:type_name -> frustum.v1.Correlation
+	3,  // 21: frustum.v1.ModelFit.cluster:type_name -> frustum.v1.Cluster
+	10, // 22: frustum.v1.ModelFit.engine:type_name -> frustum.v1.EngineReport
+	18, // 23: frustum.v1.ModelFit.powder:type_name -> frustum.v1.PowderReport
+	25, // 24: frustum.v1.FitResult.models:type_name -> frustum.v1.ModelFit
+	15, // 25: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
+	26, // [26:26] is the sub-list for method output_type
+	26, // [26:26] is the sub-list for method input_type
+	26, // [26:26] is the sub-list for extension type_name
+	26, // [26:26] is the sub-list for extension extendee
+	0,  // [0:26] is the sub-list for field type_name
 }
 
 func init() { file_frustum_v1_frustum_proto_init() }
@@ -2565,18 +3013,18 @@ func file_frustum_v1_frustum_proto_init() {
 	}
 	file_frustum_v1_frustum_proto_msgTypes[0].OneofWrappers = []any{}
 	file_frustum_v1_frustum_proto_msgTypes[1].OneofWrappers = []any{}
-	file_frustum_v1_frustum_proto_msgTypes[7].OneofWrappers = []any{}
 	file_frustum_v1_frustum_proto_msgTypes[9].OneofWrappers = []any{}
-	file_frustum_v1_frustum_proto_msgTypes[17].OneofWrappers = []any{}
-	file_frustum_v1_frustum_proto_msgTypes[18].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[11].OneofWrappers = []any{}
 	file_frustum_v1_frustum_proto_msgTypes[20].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[21].OneofWrappers = []any{}
+	file_frustum_v1_frustum_proto_msgTypes[23].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_frustum_v1_frustum_proto_rawDesc), len(file_frustum_v1_frustum_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   26,
+			NumMessages:   29,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

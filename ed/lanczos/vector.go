@@ -1,0 +1,366 @@
+package lanczos
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"sync"
+	"unsafe"
+
+	blasgonum "gonum.org/v1/gonum/blas/gonum"
+)
+
+// Scalar is the element type of the vectors: real (float64) or complex
+// (complex128), or a type defined on one of them.
+type Scalar interface{ ~float64 | ~complex128 }
+
+// Operator is a Hermitian linear operator on vectors of length Dim().
+type Operator[T Scalar] interface {
+	Dim() int
+	// Apply sets dst = H src; dst and src do not overlap. It may run in
+	// parallel internally.
+	Apply(ctx context.Context, dst, src []T) error
+}
+
+// Vector kernels. Every reduction over a vector (dot products, norms) is
+// summed chunk by chunk: the vector is cut into chunks of chunkBytes bytes
+// (4096 real or 2048 complex elements),
+// each chunk's partial sum is formed sequentially, and the partial sums are
+// added in chunk order. The result therefore does not depend on how many
+// goroutines formed the partial sums, and the package's results are
+// bit-identical for any GOMAXPROCS (given an operator whose Apply is).
+// Vectors of at least parallelMinLen elements are processed by up to
+// runtime.GOMAXPROCS(0) goroutines, each taking a fixed contiguous range of
+// chunks.
+const (
+	chunkBytes     = 1 << 15
+	parallelMinLen = 1 << 16
+)
+
+var blasImpl blasgonum.Implementation
+
+// isComplex reports whether T is complex128-based.
+func isComplex[T Scalar]() bool {
+	var z T
+	return unsafe.Sizeof(z) == 16
+}
+
+// floats views x as float64s: itself for real T, the interleaved real and
+// imaginary parts (length 2 len(x)) for complex T.
+func floats[T Scalar](x []T) []float64 {
+	if len(x) == 0 {
+		return nil
+	}
+	var z T
+	m := int(unsafe.Sizeof(z) / 8)
+	return unsafe.Slice((*float64)(unsafe.Pointer(unsafe.SliceData(x))), m*len(x))
+}
+
+// complexes views a complex-based x as complex128s. T must be complex.
+func complexes[T Scalar](x []T) []complex128 {
+	if len(x) == 0 {
+		return nil
+	}
+	return unsafe.Slice((*complex128)(unsafe.Pointer(unsafe.SliceData(x))), len(x))
+}
+
+// realPart returns Re z.
+func realPart[T Scalar](z T) float64 { return *(*float64)(unsafe.Pointer(&z)) }
+
+// fromReal returns the T with real part a and no imaginary part.
+func fromReal[T Scalar](a float64) T {
+	var z T
+	*(*float64)(unsafe.Pointer(&z)) = a
+	return z
+}
+
+// chunkLen is the number of elements of T in a chunk.
+func chunkLen[T Scalar]() int {
+	var z T
+	return chunkBytes / int(unsafe.Sizeof(z))
+}
+
+// numChunks is the number of chunks of an n-vector of T.
+func numChunks[T Scalar](n int) int {
+	cl := chunkLen[T]()
+	return (n + cl - 1) / cl
+}
+
+// chunkWorkers is the number of goroutines that process an n-vector of T.
+func chunkWorkers[T Scalar](n int) int {
+	if n < parallelMinLen {
+		return 1
+	}
+	return max(1, min(runtime.GOMAXPROCS(0), numChunks[T](n)))
+}
+
+// forChunks calls fn(t, c, lo, hi) for every chunk c = [lo, hi) of 0..n-1,
+// where t < chunkWorkers(n) is the goroutine that runs the call. Each chunk
+// is visited exactly once; goroutine t takes the fixed range of chunks
+// [t nc/w, (t+1) nc/w).
+func forChunks[T Scalar](n int, fn func(t, c, lo, hi int)) {
+	nc := numChunks[T](n)
+	w := chunkWorkers[T](n)
+	cl := chunkLen[T]()
+	run := func(t int) {
+		for c := t * nc / w; c < (t+1)*nc/w; c++ {
+			fn(t, c, c*cl, min(n, (c+1)*cl))
+		}
+	}
+	if w <= 1 {
+		run(0)
+		return
+	}
+	var wg sync.WaitGroup
+	wg.Add(w - 1)
+	for t := 1; t < w; t++ {
+		go func() {
+			defer wg.Done()
+			run(t)
+		}()
+	}
+	run(0)
+	wg.Wait()
+}
+
+// workspace holds the per-chunk partial sums of the reductions and the
+// per-goroutine buffers of combine, reused from call to call.
+type workspace struct {
+	part    []float64
+	scratch [][]float64
+}
+
+// partials returns a zeroed buffer of n floats.
+func (ws *workspace) partials(n int) []float64 {
+	if cap(ws.part) < n {
+		ws.part = make([]float64, n)
+	}
+	p := ws.part[:n]
+	clear(p)
+	return p
+}
+
+// sumPartials adds the per-chunk partials p[c*stride+i] in chunk order into
+// out[i], i < stride.
+func sumPartials(p []float64, stride int, out []float64) {
+	clear(out[:stride])
+	for c := 0; c+stride <= len(p); c += stride {
+		for i := range stride {
+			out[i] += p[c+i]
+		}
+	}
+}
+
+// dotMany sets out[i] = <vs[i], w> (conjugating vs[i]) for every i and
+// returns ||w||^2. out must have len(vs) elements.
+func dotMany[T Scalar](ws *workspace, vs [][]T, w []T, out []T) float64 {
+	n := len(w)
+	nv := len(vs)
+	cplx := isComplex[T]()
+	stride := nv + 1
+	if cplx {
+		stride = 2*nv + 1
+	}
+	p := ws.partials(numChunks[T](n) * stride)
+	forChunks[T](n, func(_, c, lo, hi int) {
+		q := p[c*stride : (c+1)*stride]
+		chunkDots(vs, w, lo, hi, q, cplx)
+	})
+	sums := make([]float64, stride)
+	sumPartials(p, stride, sums)
+	storeCoefficients(sums, out, cplx)
+	return sums[stride-1]
+}
+
+// chunkDots writes the partial dots of w[lo:hi] with every vs[i][lo:hi] into
+// q (interleaved real, imaginary parts for complex T), and the partial
+// ||w||^2 into the last element of q.
+func chunkDots[T Scalar](vs [][]T, w []T, lo, hi int, q []float64, cplx bool) {
+	if cplx {
+		wc := complexes(w[lo:hi])
+		for i, v := range vs {
+			d := blasImpl.Zdotc(hi-lo, complexes(v[lo:hi]), 1, wc, 1)
+			q[2*i], q[2*i+1] = real(d), imag(d)
+		}
+	} else {
+		wf := floats(w[lo:hi])
+		for i, v := range vs {
+			q[i] = blasImpl.Ddot(hi-lo, floats(v[lo:hi]), 1, wf, 1)
+		}
+	}
+	wf := floats(w[lo:hi])
+	q[len(q)-1] = blasImpl.Ddot(len(wf), wf, 1, wf, 1)
+}
+
+// storeCoefficients copies the summed dots into out.
+func storeCoefficients[T Scalar](sums []float64, out []T, cplx bool) {
+	if cplx {
+		oc := complexes(out)
+		for i := range oc {
+			oc[i] = complex(sums[2*i], sums[2*i+1])
+		}
+		return
+	}
+	of := floats(out)
+	copy(of, sums[:len(of)])
+}
+
+// subtract sets w -= sum_i c[i] vs[i]. When out is not nil it then sets
+// out[i] = <vs[i], w> with the updated w, in the same pass. It returns the
+// updated ||w||^2.
+func subtract[T Scalar](ws *workspace, vs [][]T, c []T, w []T, out []T) float64 {
+	n := len(w)
+	nv := len(vs)
+	cplx := isComplex[T]()
+	stride := 1
+	if out != nil {
+		stride = nv + 1
+		if cplx {
+			stride = 2*nv + 1
+		}
+	}
+	p := ws.partials(numChunks[T](n) * stride)
+	forChunks[T](n, func(_, ch, lo, hi int) {
+		if cplx {
+			wc := complexes(w[lo:hi])
+			cc := complexes(c)
+			for i, v := range vs {
+				if cc[i] != 0 {
+					blasImpl.Zaxpy(hi-lo, -cc[i], complexes(v[lo:hi]), 1, wc, 1)
+				}
+			}
+		} else {
+			wf := floats(w[lo:hi])
+			cf := floats(c)
+			for i, v := range vs {
+				if cf[i] != 0 {
+					blasImpl.Daxpy(hi-lo, -cf[i], floats(v[lo:hi]), 1, wf, 1)
+				}
+			}
+		}
+		q := p[ch*stride : (ch+1)*stride]
+		if out != nil {
+			chunkDots(vs, w, lo, hi, q, cplx)
+			return
+		}
+		wf := floats(w[lo:hi])
+		q[0] = blasImpl.Ddot(len(wf), wf, 1, wf, 1)
+	})
+	sums := make([]float64, stride)
+	sumPartials(p, stride, sums)
+	if out != nil {
+		storeCoefficients(sums, out, cplx)
+	}
+	return sums[stride-1]
+}
+
+// norm2 returns ||x||^2.
+func norm2[T Scalar](ws *workspace, x []T) float64 {
+	p := ws.partials(numChunks[T](len(x)))
+	forChunks[T](len(x), func(_, c, lo, hi int) {
+		f := floats(x[lo:hi])
+		p[c] = blasImpl.Ddot(len(f), f, 1, f, 1)
+	})
+	var s float64
+	for _, v := range p {
+		s += v
+	}
+	return s
+}
+
+// scale sets x *= a for real a.
+func scale[T Scalar](x []T, a float64) {
+	forChunks[T](len(x), func(_, _, lo, hi int) {
+		f := floats(x[lo:hi])
+		blasImpl.Dscal(len(f), a, f, 1)
+	})
+}
+
+// combine replaces vs[l] by sum_i u[i*k+l] vs[i] for l < k, in place, for
+// the real b x k matrix u (row-major, b = len(vs)). Each chunk is formed in a
+// scratch buffer of k chunks (one buffer per goroutine) before it is written
+// back, so no extra vector is allocated.
+func combine[T Scalar](ws *workspace, vs [][]T, u []float64, k int) {
+	if len(vs) == 0 || k == 0 {
+		return
+	}
+	n := len(vs[0])
+	var z T
+	per := int(unsafe.Sizeof(z) / 8)
+	w := chunkWorkers[T](n)
+	for len(ws.scratch) < w {
+		ws.scratch = append(ws.scratch, nil)
+	}
+	scratch := ws.scratch[:w]
+	for t := range scratch {
+		if need := k * min(n, chunkLen[T]()) * per; len(scratch[t]) < need {
+			scratch[t] = make([]float64, need)
+		}
+	}
+	forChunks[T](n, func(t, _, lo, hi int) {
+		buf := scratch[t]
+		m := (hi - lo) * per
+		for l := range k {
+			acc := buf[l*m : (l+1)*m]
+			clear(acc)
+			for i, v := range vs {
+				if a := u[i*k+l]; a != 0 {
+					blasImpl.Daxpy(m, a, floats(v[lo:hi]), 1, acc, 1)
+				}
+			}
+		}
+		for l := range k {
+			copy(floats(vs[l][lo:hi]), buf[l*m:(l+1)*m])
+		}
+	})
+}
+
+// fillUniform fills x with components uniform in [-1, 1) (real and
+// imaginary parts independently for complex T), drawn in index order.
+func fillUniform[T Scalar](x []T, rng *rand.Rand) {
+	f := floats(x)
+	for i := range f {
+		f[i] = 2*rng.Float64() - 1
+	}
+}
+
+// FillRandomVector fills r with a random unit vector, uniformly distributed
+// on the unit sphere: independent standard Gaussian components (for complex
+// T, real and imaginary parts independent Gaussians of variance 1/2), drawn
+// in index order from rng, then normalized. Every component has the same
+// expected weight E|r_i|^2 = 1/len(r), and for any Hermitian A
+//
+//	E <r|A|r> = Tr A / len(r),
+//
+// which is what the finite-temperature Lanczos method needs.
+func FillRandomVector[T Scalar](r []T, rng *rand.Rand) {
+	f := floats(r)
+	sd := 1.0
+	if isComplex[T]() {
+		sd = math.Sqrt(0.5)
+	}
+	for i := range f {
+		f[i] = sd * rng.NormFloat64()
+	}
+	var ws workspace
+	nr := math.Sqrt(norm2(&ws, r))
+	if nr == 0 {
+		// Probability zero; a unit basis vector keeps the contract.
+		clear(f)
+		f[0] = 1
+		return
+	}
+	scale(r, 1/nr)
+}
+
+// RandomVector returns a new random unit vector of length dim; see
+// FillRandomVector.
+func RandomVector[T Scalar](dim int, rng *rand.Rand) []T {
+	if dim <= 0 {
+		panic("lanczos: RandomVector: dim must be positive")
+	}
+	r := make([]T, dim)
+	FillRandomVector(r, rng)
+	return r
+}
