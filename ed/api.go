@@ -187,6 +187,14 @@ type MagnetizationRequest struct {
 	// chosen is reported; at most sphere.MaxPoints); Direction must then be
 	// zero. Negative is refused.
 	Powder int
+	// Method: auto (full diagonalization where it fits, finite-temperature
+	// Lanczos otherwise), full or ftlm. FTLM needs one effective g along
+	// the field (M = g S^z with S^z conserved) and T > 0, and gives no group
+	// moments.
+	Method Method
+	FTLM   FTLMOptions
+	// NoSpatialSymmetry keeps FTLM to S^z sectors.
+	NoSpatialSymmetry bool
 }
 
 // Curve is M(B) at one temperature: one value per field, mu_B per cluster;
@@ -198,6 +206,9 @@ type Curve struct {
 	// Susceptibility is dM/dB along the field, mu_B/T per cluster, when the
 	// request asked for it.
 	Susceptibility []float64
+	// MagnetizationError and SusceptibilityError are the one-standard-
+	// deviation statistical errors of the FTLM route (nil when exact).
+	MagnetizationError, SusceptibilityError []float64
 }
 
 // MagnetizationResult holds one curve per temperature.

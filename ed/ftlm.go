@@ -328,3 +328,103 @@ func thermoFTLM(ctx context.Context, req ThermoRequest, opt Options, p *taskPlan
 	res.Report = rep
 	return res, nil
 }
+
+// planMagnetizationFTLM plans the FTLM route of a magnetization curve along
+// one direction, after full diagonalization was found not to fit (dense is
+// that error, nil when FTLM was asked for). It needs M = m S^z with S^z
+// conserved, so that every field is a shift -(mu_B/k_B) m B S^z of the
+// zero-field sectors, and T > 0.
+func planMagnetizationFTLM(m *cluster.Model, req MagnetizationRequest, p *taskPlan, dense error, opt Options) (*taskPlan, error) {
+	st := p.st
+	if !(p.analytic && st.conserveSz) {
+		why := "finite-temperature Lanczos gives M(B) only where the moment along the field is m S^z with S^z conserved (one effective g); this cluster needs each field diagonalized"
+		if dense != nil {
+			return nil, fmt.Errorf("%w; %s", dense, why)
+		}
+		return nil, &RequestError{Field: "method", Reason: why}
+	}
+	for i, T := range req.Temperatures {
+		if T == 0 {
+			return nil, &RequestError{Field: fmt.Sprintf("temperatures[%d]", i), Reason: "finite-temperature Lanczos needs T > 0 (the T = 0 limit is the Lanczos ground state: frustum spectrum)"}
+		}
+	}
+	inversion := st.flipSymmetric && st.conserveSz
+	fp, err := planFTLM(m, st, st.h0, req.FTLM, inversion, !req.NoSpatialSymmetry, inversion, opt.Limits)
+	if err != nil {
+		return nil, err
+	}
+	fp.moments = true
+	p.ftlm = fp
+	dimension, _ := m.Dimension()
+	kp := fp.kp
+	p.rep = Report{Method: "finite-temperature Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
+		Solver:   fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0)),
+		Symmetry: kp.groups.about}
+	for _, s := range kp.sectors {
+		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
+		if s.twoSz != hilbert.NoSz {
+			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
+		}
+		p.rep.Sectors = append(p.rep.Sectors, sec)
+	}
+	why := ""
+	if dense != nil {
+		why = fmt.Sprintf(" (full diagonalization does not fit: %v)", dense)
+	}
+	p.rep.Route = fmt.Sprintf("%s; every field a Zeeman shift of the zero-field sectors, sampled once by finite-temperature Lanczos in %d sectors (%s)%s", spectrumRoute(st, 1, true), len(kp.sectors), kp.groups.about, why)
+	if len(st.groups) > 0 {
+		p.rep.Warnings = append(p.rep.Warnings, "finite-temperature Lanczos gives the moment of the whole cluster only: the group curves are not computed")
+	}
+	return p, nil
+}
+
+// magnetizationFTLM fills the curves of res from one set of FTLM samples of
+// the zero-field sectors, shifted for every field.
+func magnetizationFTLM(ctx context.Context, p *taskPlan, req MagnetizationRequest, opt Options, res *MagnetizationResult) error {
+	st, fp := p.st, p.ftlm
+	samples, twoSz, matvecs, solved, err := ftlmSamples(ctx, fp, opt)
+	if err != nil {
+		return err
+	}
+	for ci := range res.Curves {
+		res.Curves[ci].Groups = nil
+		res.Curves[ci].MagnetizationError = make([]float64, len(req.Fields))
+		if req.Susceptibility {
+			res.Curves[ci].SusceptibilityError = make([]float64, len(req.Fields))
+		}
+	}
+	blocks := 0
+	for bi, B := range req.Fields {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		h := MuBOverKB * B * st.mz
+		for i := range samples {
+			sz := float64(twoSz[i]) / 2
+			samples[i].Value, samples[i].Offset = sz, -h*sz
+		}
+		th, err := lanczos.Thermodynamics(samples, req.Temperatures, math.NaN())
+		if err != nil {
+			return err
+		}
+		blocks = th.Blocks
+		for ti, T := range req.Temperatures {
+			c := &res.Curves[ti]
+			c.Magnetization[bi] = st.mz * th.Mean[ti].Value
+			c.MagnetizationError[bi] = math.Abs(st.mz) * th.Mean[ti].Error
+			if req.Susceptibility {
+				c.Susceptibility[bi] = MuBOverKB * st.mz * st.mz * th.Variance[ti].Value / T
+				c.SusceptibilityError[bi] = MuBOverKB * st.mz * st.mz * th.Variance[ti].Error / T
+			}
+			if B == 0 {
+				c.MagnetizationError[bi] = 0
+			}
+		}
+	}
+	p.rep.Diagonalizations = solved
+	p.rep.Matvecs = matvecs
+	if blocks > 0 {
+		p.rep.Warnings = append(p.rep.Warnings, fmt.Sprintf("finite-temperature Lanczos: statistical estimates from %d random vectors of %d steps per sector; every value has its one-standard-deviation error (magnetizationError, jackknife over %d blocks)", fp.opts.Vectors, fp.opts.Steps, blocks))
+	}
+	return nil
+}

@@ -2,6 +2,7 @@ package ed
 
 import (
 	"context"
+	"errors"
 	"math"
 	"testing"
 
@@ -101,5 +102,50 @@ func TestFTLMExactSectorsMatchDenseRoute(t *testing.T) {
 		if ex.EnergyError[i] != 0 {
 			t.Errorf("exact sectors report a statistical error %v", ex.EnergyError[i])
 		}
+	}
+}
+
+// Magnetization curves by FTLM against the exact-sector route (every
+// sector dense, see TestFTLMExactSectorsMatchDenseRoute) on a 14-site ring:
+// within 4 of their reported errors (common practice, no source), and one
+// set of samples serves every field.
+func TestFTLMMagnetization(t *testing.T) {
+	m, err := cluster.Ring(14, cluster.ChainParams{J1: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	req := MagnetizationRequest{Temperatures: []float64{0.2, 1, 3}, Fields: []float64{0, 0.5, 1, 2, 3}, Susceptibility: true}
+	exact := req
+	exact.Method, exact.FTLM = MethodFTLM, FTLMOptions{ExactBelow: 1 << 20}
+	ex, err := Magnetization(context.Background(), m, exact, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	stoch := req
+	stoch.Method, stoch.NoSpatialSymmetry, stoch.FTLM = MethodFTLM, true, FTLMOptions{Vectors: 16, Steps: 60, ExactBelow: 100, Seed: 5}
+	ft, err := Magnetization(context.Background(), m, stoch, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for ti := range req.Temperatures {
+		a, b := ex.Curves[ti], ft.Curves[ti]
+		for bi := range req.Fields {
+			if d := math.Abs(a.Magnetization[bi] - b.Magnetization[bi]); d > 4*b.MagnetizationError[bi]+1e-9 {
+				t.Errorf("T = %g, B = %g: M FTLM %v +- %v, exact %v", a.Temperature, req.Fields[bi], b.Magnetization[bi], b.MagnetizationError[bi], a.Magnetization[bi])
+			}
+			if d := math.Abs(a.Susceptibility[bi] - b.Susceptibility[bi]); d > 4*b.SusceptibilityError[bi]+1e-9 {
+				t.Errorf("T = %g, B = %g: chi FTLM %v +- %v, exact %v", a.Temperature, req.Fields[bi], b.Susceptibility[bi], b.SusceptibilityError[bi], a.Susceptibility[bi])
+			}
+		}
+	}
+	if ft.Report.Method != "finite-temperature Lanczos" {
+		t.Errorf("method %q", ft.Report.Method)
+	}
+	// T = 0 is refused by FTLM with the field named.
+	zero := stoch
+	zero.Temperatures = []float64{0}
+	var re *RequestError
+	if _, err := Magnetization(context.Background(), m, zero, Options{}); !errors.As(err, &re) || re.Field != "temperatures[0]" {
+		t.Errorf("T = 0: %v", err)
 	}
 }

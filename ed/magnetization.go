@@ -86,9 +86,12 @@ func runDirection(ctx context.Context, p *taskPlan, req MagnetizationRequest, op
 		res.Curves = append(res.Curves, c)
 	}
 	var err error
-	if p.analytic {
+	switch {
+	case p.ftlm != nil:
+		err = magnetizationFTLM(ctx, p, req, opt, res)
+	case p.analytic:
 		err = magnetizationShortcut(ctx, p, req, opt, res)
-	} else {
+	default:
 		err = magnetizationPerField(ctx, p, req, opt, res)
 	}
 	if err != nil {
@@ -317,7 +320,18 @@ func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRe
 
 // checkMagnetization validates the model and the request.
 func checkMagnetization(m *cluster.Model, req MagnetizationRequest) error {
-	if err := checkModel(m); err != nil {
+	if m == nil || len(m.Sites) == 0 {
+		return &RequestError{Field: "cluster", Reason: "has no sites"}
+	}
+	if _, ok := m.Dimension(); !ok {
+		return &RequestError{Field: "cluster", Reason: "Hilbert space too large to index"}
+	}
+	switch req.Method {
+	case "", MethodAuto, MethodFull, MethodFTLM:
+	default:
+		return &RequestError{Field: "method", Reason: fmt.Sprintf("unknown method %q (auto, full or ftlm)", req.Method)}
+	}
+	if err := checkFTLM(req.FTLM); err != nil {
 		return err
 	}
 	if err := checkVector("direction", req.Direction); err != nil {
@@ -359,9 +373,18 @@ func planDirection(m *cluster.Model, req MagnetizationRequest, n [3]float64, opt
 		p.isReal = st.real
 	}
 	w.complex = !p.isReal
-	mem, workers, err := w.check(opt.Limits)
-	if err != nil {
-		return nil, err
+	dimension, _ := m.Dimension()
+	var mem int64
+	var workers int
+	err := error(&RequestError{Field: "cluster", Reason: fmt.Sprintf("Hilbert space of %d sites is beyond full diagonalization (more than 2^31 states)", len(m.Sites))})
+	if dimension <= 1<<31-1 && req.Method != MethodFTLM {
+		mem, workers, err = w.check(opt.Limits)
+	}
+	if err != nil || req.Method == MethodFTLM {
+		if req.Method == MethodFull {
+			return nil, err
+		}
+		return planMagnetizationFTLM(m, req, p, err, opt)
 	}
 	p.rep = w.report(st, mem)
 	p.workers = workers

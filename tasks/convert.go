@@ -79,9 +79,7 @@ func ThermoRequestFromProto(p *frustumv1.ThermoParameters) (ed.ThermoRequest, er
 func ThermoParametersToProto(r ed.ThermoRequest) *frustumv1.ThermoParameters {
 	p := &frustumv1.ThermoParameters{Temperatures: slices.Clone(r.Temperatures), Field: vectorToProto(r.Field), Method: string(r.Method),
 		NoSpatialSymmetry: r.NoSpatialSymmetry}
-	if r.FTLM != (ed.FTLMOptions{}) {
-		p.Ftlm = &frustumv1.FtlmParameters{Vectors: int32(r.FTLM.Vectors), Steps: int32(r.FTLM.Steps), Seed: r.FTLM.Seed, ExactBelow: int32(r.FTLM.ExactBelow)}
-	}
+	p.Ftlm = ftlmToProto(r.FTLM)
 	return p
 }
 
@@ -98,6 +96,10 @@ func MagnetizationRequestFromProto(p *frustumv1.MagnetizationParameters) (ed.Mag
 		Direction:      dir,
 		Powder:         int(p.GetPowder()),
 		Susceptibility: p.GetSusceptibility(),
+		Method:         ed.Method(p.GetMethod()),
+		FTLM: ed.FTLMOptions{Vectors: int(p.GetFtlm().GetVectors()), Steps: int(p.GetFtlm().GetSteps()),
+			Seed: p.GetFtlm().GetSeed(), ExactBelow: int(p.GetFtlm().GetExactBelow())},
+		NoSpatialSymmetry: p.GetNoSpatialSymmetry(),
 	}, nil
 }
 
@@ -105,11 +107,14 @@ func MagnetizationRequestFromProto(p *frustumv1.MagnetizationParameters) (ed.Mag
 // parameters.
 func MagnetizationParametersToProto(r ed.MagnetizationRequest) *frustumv1.MagnetizationParameters {
 	return &frustumv1.MagnetizationParameters{
-		Temperatures:   slices.Clone(r.Temperatures),
-		Fields:         slices.Clone(r.Fields),
-		Direction:      vectorToProto(r.Direction),
-		Powder:         int32(r.Powder),
-		Susceptibility: r.Susceptibility,
+		Temperatures:      slices.Clone(r.Temperatures),
+		Fields:            slices.Clone(r.Fields),
+		Direction:         vectorToProto(r.Direction),
+		Powder:            int32(r.Powder),
+		Susceptibility:    r.Susceptibility,
+		Method:            string(r.Method),
+		NoSpatialSymmetry: r.NoSpatialSymmetry,
+		Ftlm:              ftlmToProto(r.FTLM),
 	}
 }
 
@@ -305,10 +310,12 @@ func MagnetizationResultToProto(name string, r *ed.MagnetizationResult) *frustum
 	}
 	for i, c := range r.Curves {
 		pc := &frustumv1.MagnetizationCurve{
-			Temperature:    c.Temperature,
-			Magnetization:  slices.Clone(c.Magnetization),
-			Groups:         make(map[string]*frustumv1.GroupCurve, len(c.Groups)),
-			Susceptibility: slices.Clone(c.Susceptibility),
+			Temperature:         c.Temperature,
+			Magnetization:       slices.Clone(c.Magnetization),
+			Groups:              make(map[string]*frustumv1.GroupCurve, len(c.Groups)),
+			Susceptibility:      slices.Clone(c.Susceptibility),
+			MagnetizationError:  slices.Clone(c.MagnetizationError),
+			SusceptibilityError: slices.Clone(c.SusceptibilityError),
 		}
 		for g, v := range c.Groups {
 			pc.Groups[g] = &frustumv1.GroupCurve{Values: slices.Clone(v)}
@@ -337,10 +344,12 @@ func MagnetizationResultFromProto(p *frustumv1.MagnetizationResult) (string, *ed
 	}
 	for _, c := range p.GetCurves() {
 		curve := ed.Curve{
-			Temperature:    c.GetTemperature(),
-			Magnetization:  slices.Clone(c.GetMagnetization()),
-			Groups:         make(map[string][]float64, len(c.GetGroups())),
-			Susceptibility: slices.Clone(c.GetSusceptibility()),
+			Temperature:         c.GetTemperature(),
+			Magnetization:       slices.Clone(c.GetMagnetization()),
+			Groups:              make(map[string][]float64, len(c.GetGroups())),
+			Susceptibility:      slices.Clone(c.GetSusceptibility()),
+			MagnetizationError:  slices.Clone(c.GetMagnetizationError()),
+			SusceptibilityError: slices.Clone(c.GetSusceptibilityError()),
 		}
 		for g, v := range c.GetGroups() {
 			curve.Groups[g] = slices.Clone(v.GetValues())
@@ -348,4 +357,12 @@ func MagnetizationResultFromProto(p *frustumv1.MagnetizationResult) (string, *ed
 		out.Curves = append(out.Curves, curve)
 	}
 	return p.GetClusterName(), out, nil
+}
+
+// ftlmToProto converts FTLM options; the defaults give nil.
+func ftlmToProto(o ed.FTLMOptions) *frustumv1.FtlmParameters {
+	if o == (ed.FTLMOptions{}) {
+		return nil
+	}
+	return &frustumv1.FtlmParameters{Vectors: int32(o.Vectors), Steps: int32(o.Steps), Seed: o.Seed, ExactBelow: int32(o.ExactBelow)}
 }

@@ -79,7 +79,7 @@ func TestJSONFieldNames(t *testing.T) {
 	// powder is null for one direction (an unset message field).
 	wantKeys(t, "MagnetizationResult", mag, "clusterName", "field", "direction", "curves", "saturation", "engine", "groupSaturation", "powder")
 	curve := object(t, firstOf(t, mag["curves"]))
-	wantKeys(t, "MagnetizationCurve", curve, "temperature", "magnetization", "groups", "susceptibility")
+	wantKeys(t, "MagnetizationCurve", curve, "temperature", "magnetization", "groups", "susceptibility", "magnetizationError", "susceptibilityError")
 	wantKeys(t, "groups", object(t, curve["groups"]), "impurity")
 	wantKeys(t, "GroupCurve", object(t, object(t, curve["groups"])["impurity"]), "values")
 

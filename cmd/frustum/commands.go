@@ -171,49 +171,19 @@ frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,
 		clusterFlag(fs, &path)
 		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
 		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
-		fs.stringFlag(&method, "method", "`METHOD`: auto (default), full or ftlm")
-		fs.funcFlag("vectors", "FTLM random vectors `R` per sector (default 20)", func(s string) error {
-			n, err := strconv.Atoi(s)
-			if err != nil || n < 2 {
-				return fmt.Errorf("%q: want a whole number >= 2", s)
-			}
-			fp.Vectors = int32(n)
-			return nil
-		})
-		fs.funcFlag("steps", "FTLM Lanczos steps `M` per vector (default 100)", func(s string) error {
-			n, err := strconv.Atoi(s)
-			if err != nil || n < 1 {
-				return fmt.Errorf("%q: want a whole number >= 1", s)
-			}
-			fp.Steps = int32(n)
-			return nil
-		})
-		fs.funcFlag("seed", "seed `N` of the FTLM random vectors (default 0)", func(s string) error {
-			v, err := strconv.ParseUint(s, 10, 64)
-			if err != nil {
-				return fmt.Errorf("%q: want a whole number >= 0", s)
-			}
-			fp.Seed = v
-			return nil
-		})
-		fs.boolFlag(&noSym, "no-spatial-symmetry", "FTLM in S^z sectors only, without the cluster's symmetries")
+		ftlmFlags(fs, &method, &fp, &noSym)
 		return func() (*frustumv1.JobSpec, error) {
 			if temps == nil {
 				return nil, usagef("--temps GRID is required")
 			}
-			switch method {
-			case "", "auto", "full", "ftlm":
-			default:
-				return nil, usagef("--method %q: want auto, full or ftlm", method)
+			if err := checkFTLMMethod(method); err != nil {
+				return nil, err
 			}
 			c, err := loadCluster(path)
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:], Method: method, NoSpatialSymmetry: noSym}
-			if fp.Vectors != 0 || fp.Steps != 0 || fp.Seed != 0 {
-				p.Ftlm = &fp
-			}
+			p := &frustumv1.ThermoParameters{Temperatures: temps, Field: field[:], Method: method, NoSpatialSymmetry: noSym, Ftlm: ftlmOrNil(&fp)}
 			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Thermo{Thermo: p}}, nil
 		}
 	},
@@ -226,7 +196,7 @@ frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,
 
 var magnetizationTask = &task{
 	name:     "magnetization",
-	synopsis: "--cluster FILE --temps GRID --fields GRID [--direction x,y,z | --powder N]",
+	synopsis: "--cluster FILE --temps GRID --fields GRID [--direction x,y,z | --powder N] [--method auto|full|ftlm] [--vectors R] [--steps M] [--seed N]",
 	about: `Prints magnetization curves M(B), one per temperature: the moment of the
 whole cluster along the field direction and that of each site group (the
 "group" tags of the cluster file), in mu_B per cluster, at each field
@@ -250,12 +220,16 @@ frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:
 			direction    [3]float64
 			hasDirection bool
 			powder       int
+			method       string
+			noSym        bool
+			fp           frustumv1.FtlmParameters
 		)
 		clusterFlag(fs, &path)
 		fs.funcFlag("temps", "temperatures in K, a `GRID` (required)", gridFlag(&temps))
 		fs.funcFlag("fields", "field magnitudes in T along the direction, a `GRID` (required)", gridFlag(&fields))
 		fs.funcFlag("direction", "field direction `x,y,z`, any length but not zero (default 0,0,1)", vectorFlag("direction", &direction, &hasDirection, true))
 		fs.funcFlag("powder", "average over at least `N` field directions of a quadrature on the sphere (a powder)", powderFlag(&powder))
+		ftlmFlags(fs, &method, &fp, &noSym)
 		return func() (*frustumv1.JobSpec, error) {
 			if temps == nil {
 				return nil, usagef("--temps GRID is required")
@@ -270,7 +244,10 @@ frustum magnetization --cluster testdata/star-mixed.json --temps 0.5 --fields 0:
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields, Powder: int32(powder)}
+			if err := checkFTLMMethod(method); err != nil {
+				return nil, err
+			}
+			p := &frustumv1.MagnetizationParameters{Temperatures: temps, Fields: fields, Powder: int32(powder), Method: method, NoSpatialSymmetry: noSym, Ftlm: ftlmOrNil(&fp)}
 			if hasDirection {
 				p.Direction = direction[:]
 			}
@@ -386,4 +363,51 @@ func engineOf(m proto.Message) *frustumv1.EngineReport {
 		return e
 	}
 	return nil
+}
+
+// ftlmFlags registers --method, --vectors, --steps, --seed and
+// --no-spatial-symmetry of the tasks with a finite-temperature Lanczos route.
+func ftlmFlags(fs *flagSet, method *string, fp *frustumv1.FtlmParameters, noSym *bool) {
+	fs.stringFlag(method, "method", "`METHOD`: auto (default), full or ftlm")
+	fs.funcFlag("vectors", "FTLM random vectors `R` per sector (default 20)", func(s string) error {
+		n, err := strconv.Atoi(s)
+		if err != nil || n < 2 {
+			return fmt.Errorf("%q: want a whole number >= 2", s)
+		}
+		fp.Vectors = int32(n)
+		return nil
+	})
+	fs.funcFlag("steps", "FTLM Lanczos steps `M` per vector (default 100)", func(s string) error {
+		n, err := strconv.Atoi(s)
+		if err != nil || n < 1 {
+			return fmt.Errorf("%q: want a whole number >= 1", s)
+		}
+		fp.Steps = int32(n)
+		return nil
+	})
+	fs.funcFlag("seed", "seed `N` of the FTLM random vectors (default 0)", func(s string) error {
+		v, err := strconv.ParseUint(s, 10, 64)
+		if err != nil {
+			return fmt.Errorf("%q: want a whole number >= 0", s)
+		}
+		fp.Seed = v
+		return nil
+	})
+	fs.boolFlag(noSym, "no-spatial-symmetry", "FTLM in S^z sectors only, without the cluster's symmetries")
+}
+
+func checkFTLMMethod(method string) error {
+	switch method {
+	case "", "auto", "full", "ftlm":
+		return nil
+	}
+	return usagef("--method %q: want auto, full or ftlm", method)
+}
+
+// ftlmOrNil returns fp, or nil when it holds only defaults.
+func ftlmOrNil(fp *frustumv1.FtlmParameters) *frustumv1.FtlmParameters {
+	if fp.GetVectors() == 0 && fp.GetSteps() == 0 && fp.GetSeed() == 0 {
+		return nil
+	}
+	return fp
 }

@@ -251,6 +251,9 @@ func withError(v, e float64) string {
 		return "NaN"
 	case e == 0 || math.IsNaN(e) || math.IsInf(e, 0):
 		return sig(v, 6)
+	case e < 1e-6*math.Max(1, math.Abs(v)):
+		// Below the digits printed: the value to seven figures.
+		return sig(v, 7)
 	}
 	d := max(0, 1-int(math.Floor(math.Log10(e))))
 	return fmt.Sprintf("%.*f +- %.*f", d, v, d, e)
@@ -308,6 +311,9 @@ func magnetizationTable(w io.Writer, r *frustumv1.MagnetizationResult) error {
 				ratio = m / r.GetSaturation()
 			}
 			row := []string{sig(B, 6), fixed(m, 5), fixed(ratio, 4)}
+			if len(c.GetMagnetizationError()) > 0 {
+				row[1] = withError(m, at(c.GetMagnetizationError(), i))
+			}
 			for _, g := range groups {
 				row = append(row, fixed(at(c.GetGroups()[g].GetValues(), i), 5))
 			}

@@ -692,8 +692,16 @@ type MagnetizationParameters struct {
 	Powder int32 `protobuf:"varint,4,opt,name=powder,proto3" json:"powder,omitempty"`
 	// susceptibility: also return dM/dB along the field at every point.
 	Susceptibility bool `protobuf:"varint,5,opt,name=susceptibility,proto3" json:"susceptibility,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// method: "auto" (or empty: full diagonalization where it fits, else
+	// finite-temperature Lanczos), "full" or "ftlm". FTLM needs one effective
+	// g along the field (M = g S^z with S^z conserved) and T > 0, and gives
+	// no group moments.
+	Method string          `protobuf:"bytes,6,opt,name=method,proto3" json:"method,omitempty"`
+	Ftlm   *FtlmParameters `protobuf:"bytes,7,opt,name=ftlm,proto3" json:"ftlm,omitempty"`
+	// no_spatial_symmetry keeps FTLM to S^z sectors.
+	NoSpatialSymmetry bool `protobuf:"varint,8,opt,name=no_spatial_symmetry,json=noSpatialSymmetry,proto3" json:"no_spatial_symmetry,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *MagnetizationParameters) Reset() {
@@ -757,6 +765,27 @@ func (x *MagnetizationParameters) GetPowder() int32 {
 func (x *MagnetizationParameters) GetSusceptibility() bool {
 	if x != nil {
 		return x.Susceptibility
+	}
+	return false
+}
+
+func (x *MagnetizationParameters) GetMethod() string {
+	if x != nil {
+		return x.Method
+	}
+	return ""
+}
+
+func (x *MagnetizationParameters) GetFtlm() *FtlmParameters {
+	if x != nil {
+		return x.Ftlm
+	}
+	return nil
+}
+
+func (x *MagnetizationParameters) GetNoSpatialSymmetry() bool {
+	if x != nil {
+		return x.NoSpatialSymmetry
 	}
 	return false
 }
@@ -1494,8 +1523,12 @@ type MagnetizationCurve struct {
 	// susceptibility dM/dB along the field, isothermal and including the Van
 	// Vleck part, one value per field, mu_B/T per cluster (when asked for).
 	Susceptibility []float64 `protobuf:"fixed64,4,rep,packed,name=susceptibility,proto3" json:"susceptibility,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// magnetization_error and susceptibility_error: one-standard-deviation
+	// statistical errors from finite-temperature Lanczos (empty when exact).
+	MagnetizationError  []float64 `protobuf:"fixed64,5,rep,packed,name=magnetization_error,json=magnetizationError,proto3" json:"magnetization_error,omitempty"`
+	SusceptibilityError []float64 `protobuf:"fixed64,6,rep,packed,name=susceptibility_error,json=susceptibilityError,proto3" json:"susceptibility_error,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
 }
 
 func (x *MagnetizationCurve) Reset() {
@@ -1552,6 +1585,20 @@ func (x *MagnetizationCurve) GetGroups() map[string]*GroupCurve {
 func (x *MagnetizationCurve) GetSusceptibility() []float64 {
 	if x != nil {
 		return x.Susceptibility
+	}
+	return nil
+}
+
+func (x *MagnetizationCurve) GetMagnetizationError() []float64 {
+	if x != nil {
+		return x.MagnetizationError
+	}
+	return nil
+}
+
+func (x *MagnetizationCurve) GetSusceptibilityError() []float64 {
+	if x != nil {
+		return x.SusceptibilityError
 	}
 	return nil
 }
@@ -2725,13 +2772,16 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x05steps\x18\x02 \x01(\x05R\x05steps\x12\x12\n" +
 	"\x04seed\x18\x03 \x01(\x04R\x04seed\x12\x1f\n" +
 	"\vexact_below\x18\x04 \x01(\x05R\n" +
-	"exactBelow\"\xb3\x01\n" +
+	"exactBelow\"\xab\x02\n" +
 	"\x17MagnetizationParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x16\n" +
 	"\x06fields\x18\x02 \x03(\x01R\x06fields\x12\x1c\n" +
 	"\tdirection\x18\x03 \x03(\x01R\tdirection\x12\x16\n" +
 	"\x06powder\x18\x04 \x01(\x05R\x06powder\x12&\n" +
-	"\x0esusceptibility\x18\x05 \x01(\bR\x0esusceptibility\"X\n" +
+	"\x0esusceptibility\x18\x05 \x01(\bR\x0esusceptibility\x12\x16\n" +
+	"\x06method\x18\x06 \x01(\tR\x06method\x12.\n" +
+	"\x04ftlm\x18\a \x01(\v2\x1a.frustum.v1.FtlmParametersR\x04ftlm\x12.\n" +
+	"\x13no_spatial_symmetry\x18\b \x01(\bR\x11noSpatialSymmetry\"X\n" +
 	"\x06Sector\x12\x14\n" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x13\n" +
 	"\x02sz\x18\x02 \x01(\x01H\x00R\x02sz\x88\x01\x01\x12\x1c\n" +
@@ -2797,12 +2847,14 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x14susceptibility_error\x18\x0f \x03(\x01R\x13susceptibilityError\"$\n" +
 	"\n" +
 	"GroupCurve\x12\x16\n" +
-	"\x06values\x18\x01 \x03(\x01R\x06values\"\x9b\x02\n" +
+	"\x06values\x18\x01 \x03(\x01R\x06values\"\xff\x02\n" +
 	"\x12MagnetizationCurve\x12 \n" +
 	"\vtemperature\x18\x01 \x01(\x01R\vtemperature\x12$\n" +
 	"\rmagnetization\x18\x02 \x03(\x01R\rmagnetization\x12B\n" +
 	"\x06groups\x18\x03 \x03(\v2*.frustum.v1.MagnetizationCurve.GroupsEntryR\x06groups\x12&\n" +
-	"\x0esusceptibility\x18\x04 \x03(\x01R\x0esusceptibility\x1aQ\n" +
+	"\x0esusceptibility\x18\x04 \x03(\x01R\x0esusceptibility\x12/\n" +
+	"\x13magnetization_error\x18\x05 \x03(\x01R\x12magnetizationError\x121\n" +
+	"\x14susceptibility_error\x18\x06 \x03(\x01R\x13susceptibilityError\x1aQ\n" +
 	"\vGroupsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12,\n" +
 	"\x05value\x18\x02 \x01(\v2\x16.frustum.v1.GroupCurveR\x05value:\x028\x01\"\xcd\x03\n" +
@@ -2978,32 +3030,33 @@ var file_frustum_v1_frustum_proto_depIdxs = []int32{
 	2,  // 2: frustum.v1.Cluster.symmetries:type_name -> frustum.v1.Symmetry
 	5,  // 3: frustum.v1.SpectrumParameters.lanczos:type_name -> frustum.v1.LanczosParameters
 	7,  // 4: frustum.v1.ThermoParameters.ftlm:type_name -> frustum.v1.FtlmParameters
-	9,  // 5: frustum.v1.EngineReport.sectors:type_name -> frustum.v1.Sector
-	11, // 6: frustum.v1.SpectrumResult.levels:type_name -> frustum.v1.Level
-	10, // 7: frustum.v1.SpectrumResult.engine:type_name -> frustum.v1.EngineReport
-	13, // 8: frustum.v1.SpectrumResult.ground_state:type_name -> frustum.v1.GroundState
-	10, // 9: frustum.v1.ThermoResult.engine:type_name -> frustum.v1.EngineReport
-	27, // 10: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
-	16, // 11: frustum.v1.MagnetizationResult.curves:type_name -> frustum.v1.MagnetizationCurve
-	10, // 12: frustum.v1.MagnetizationResult.engine:type_name -> frustum.v1.EngineReport
-	28, // 13: frustum.v1.MagnetizationResult.group_saturation:type_name -> frustum.v1.MagnetizationResult.GroupSaturationEntry
-	18, // 14: frustum.v1.MagnetizationResult.powder:type_name -> frustum.v1.PowderReport
-	19, // 15: frustum.v1.FitParameters.data:type_name -> frustum.v1.MeasuredData
-	3,  // 16: frustum.v1.FitParameters.models:type_name -> frustum.v1.Cluster
-	20, // 17: frustum.v1.FitParameters.vary:type_name -> frustum.v1.FitParameter
-	22, // 18: frustum.v1.ModelFit.parameters:type_name -> frustum.v1.FittedParameter
-	23, // 19: frustum.v1.ModelFit.links:type_name -> frustum.v1.LinkCoefficients
-	24, // 20: frustum.v1.ModelFit.correlations:type_name -> frustum.v1.Correlation
-	3,  // 21: frustum.v1.ModelFit.cluster:type_name -> frustum.v1.Cluster
-	10, // 22: frustum.v1.ModelFit.engine:type_name -> frustum.v1.EngineReport
-	18, // 23: frustum.v1.ModelFit.powder:type_name -> frustum.v1.PowderReport
-	25, // 24: frustum.v1.FitResult.models:type_name -> frustum.v1.ModelFit
-	15, // 25: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
-	26, // [26:26] is the sub-list for method output_type
-	26, // [26:26] is the sub-list for method input_type
-	26, // [26:26] is the sub-list for extension type_name
-	26, // [26:26] is the sub-list for extension extendee
-	0,  // [0:26] is the sub-list for field type_name
+	7,  // 5: frustum.v1.MagnetizationParameters.ftlm:type_name -> frustum.v1.FtlmParameters
+	9,  // 6: frustum.v1.EngineReport.sectors:type_name -> frustum.v1.Sector
+	11, // 7: frustum.v1.SpectrumResult.levels:type_name -> frustum.v1.Level
+	10, // 8: frustum.v1.SpectrumResult.engine:type_name -> frustum.v1.EngineReport
+	13, // 9: frustum.v1.SpectrumResult.ground_state:type_name -> frustum.v1.GroundState
+	10, // 10: frustum.v1.ThermoResult.engine:type_name -> frustum.v1.EngineReport
+	27, // 11: frustum.v1.MagnetizationCurve.groups:type_name -> frustum.v1.MagnetizationCurve.GroupsEntry
+	16, // 12: frustum.v1.MagnetizationResult.curves:type_name -> frustum.v1.MagnetizationCurve
+	10, // 13: frustum.v1.MagnetizationResult.engine:type_name -> frustum.v1.EngineReport
+	28, // 14: frustum.v1.MagnetizationResult.group_saturation:type_name -> frustum.v1.MagnetizationResult.GroupSaturationEntry
+	18, // 15: frustum.v1.MagnetizationResult.powder:type_name -> frustum.v1.PowderReport
+	19, // 16: frustum.v1.FitParameters.data:type_name -> frustum.v1.MeasuredData
+	3,  // 17: frustum.v1.FitParameters.models:type_name -> frustum.v1.Cluster
+	20, // 18: frustum.v1.FitParameters.vary:type_name -> frustum.v1.FitParameter
+	22, // 19: frustum.v1.ModelFit.parameters:type_name -> frustum.v1.FittedParameter
+	23, // 20: frustum.v1.ModelFit.links:type_name -> frustum.v1.LinkCoefficients
+	24, // 21: frustum.v1.ModelFit.correlations:type_name -> frustum.v1.Correlation
+	3,  // 22: frustum.v1.ModelFit.cluster:type_name -> frustum.v1.Cluster
+	10, // 23: frustum.v1.ModelFit.engine:type_name -> frustum.v1.EngineReport
+	18, // 24: frustum.v1.ModelFit.powder:type_name -> frustum.v1.PowderReport
+	25, // 25: frustum.v1.FitResult.models:type_name -> frustum.v1.ModelFit
+	15, // 26: frustum.v1.MagnetizationCurve.GroupsEntry.value:type_name -> frustum.v1.GroupCurve
+	27, // [27:27] is the sub-list for method output_type
+	27, // [27:27] is the sub-list for method input_type
+	27, // [27:27] is the sub-list for extension type_name
+	27, // [27:27] is the sub-list for extension extendee
+	0,  // [0:27] is the sub-list for field type_name
 }
 
 func init() { file_frustum_v1_frustum_proto_init() }
