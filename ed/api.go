@@ -112,6 +112,11 @@ type SpectrumRequest struct {
 	// NoSpatialSymmetry keeps the Lanczos route to S^z sectors (for
 	// checks and comparisons).
 	NoSpatialSymmetry bool
+	// Sectors, when not empty, restricts the Lanczos route to the sectors
+	// whose labels contain every comma-separated component of one entry,
+	// for example "Sz=0" or "Sz=0, T1:k=15/30". Levels of other sectors are
+	// then missing, and the result says so.
+	Sectors []string
 }
 
 // GroundState holds the correlations of the ground state found by the

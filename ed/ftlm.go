@@ -88,7 +88,7 @@ type ftlmPlan struct {
 // them all) and checks memory: one sector at a time, its basis, its matrix
 // when it fits, and the Lanczos work vectors.
 func planFTLM(m *cluster.Model, st *setup, op *operator, opts FTLMOptions, inversion, spatial, mirror bool, l Limits) (*ftlmPlan, error) {
-	kp, err := planKrylov(m, st, op, 1, false, inversion, spatial, mirror, l)
+	kp, err := planKrylov(m, st, op, 1, false, inversion, spatial, mirror, l, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -131,10 +131,35 @@ type krylovPlan struct {
 	basis    int
 	vectors  bool
 	complexH bool
+	// excluded counts the sectors left out by the request's selection.
+	excluded int
+}
+
+// sectorSelected reports whether a sector label ("Sz=0, T1:k=3/16,flip:+")
+// matches one of the selections, each a list of label components separated
+// by commas, all of which must be components of the label.
+func sectorSelected(label string, only []string) bool {
+	parts := map[string]bool{}
+	for _, c := range strings.FieldsFunc(label, func(r rune) bool { return r == ',' }) {
+		parts[strings.TrimSpace(c)] = true
+	}
+	for _, sel := range only {
+		all := true
+		for _, c := range strings.FieldsFunc(sel, func(r rune) bool { return r == ',' }) {
+			if !parts[strings.TrimSpace(c)] {
+				all = false
+				break
+			}
+		}
+		if all {
+			return true
+		}
+	}
+	return false
 }
 
 // planKrylov lays out the sectors of op and checks the memory.
-func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inversion, spatial, mirror bool, l Limits) (*krylovPlan, error) {
+func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inversion, spatial, mirror bool, l Limits, only []string) (*krylovPlan, error) {
 	h := toHilbert(st.sys, op)
 	groups, err := newSymmetryGroups(m, st.sys, inversion, spatial)
 	if err != nil {
@@ -166,6 +191,10 @@ func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inver
 			label := ir.Label
 			if v != hilbert.NoSz {
 				label = "Sz=" + halfString(v) + ", " + ir.Label
+			}
+			if len(only) > 0 && !sectorSelected(label, only) {
+				p.excluded++
+				continue
 			}
 			p.sectors = append(p.sectors, krylovSector{twoSz: v, group: g, irrep: ir, mem: mem, label: label,
 				mirror: mirror && v != hilbert.NoSz && v < 0})

@@ -206,7 +206,10 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	}
 	mirror := st.flipSymmetric && p.op == st.h0
 	inversion := st.flipSymmetric && p.op == st.h0 && st.conserveSz
-	kp, err := planKrylov(m, st, p.op, k, req.Correlations, inversion, !req.NoSpatialSymmetry, mirror, opt.Limits)
+	// A selection of sectors breaks the pairing of S^z with -S^z: no
+	// mirrors then.
+	mirror = mirror && len(req.Sectors) == 0
+	kp, err := planKrylov(m, st, p.op, k, req.Correlations, inversion, !req.NoSpatialSymmetry, mirror, opt.Limits, req.Sectors)
 	if err != nil {
 		var le *LimitError
 		if errors.As(err, &le) && denseErr != nil && req.Levels == 0 {
@@ -233,6 +236,13 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	p.rep.Route = fmt.Sprintf("%s; Lanczos in %d sectors (%s; %s), the lowest %d of each%s", spectrumRoute(st, B, p.analytic), len(kp.sectors), kp.groups.about, op, k, why)
 	if why != "" {
 		p.rep.Warnings = append(p.rep.Warnings, fmt.Sprintf("all levels were asked for, but the cluster is too large for full diagonalization: the lowest %d from Lanczos", k))
+	}
+	if len(req.Sectors) > 0 {
+		if len(kp.sectors) == 0 {
+			return nil, &RequestError{Field: "sectors", Reason: fmt.Sprintf("%q matches no sector (labels are like \"Sz=0, T1:k=0/16,flip:+\"; frustum spectrum without --sector lists them)", req.Sectors)}
+		}
+		p.rep.Route += fmt.Sprintf("; restricted to the sectors matching %q", req.Sectors)
+		p.rep.Warnings = append(p.rep.Warnings, fmt.Sprintf("only %d of %d sectors were solved (those matching %q): levels of the others are not in the result", len(kp.sectors), len(kp.sectors)+kp.excluded, req.Sectors))
 	}
 	return p, nil
 }

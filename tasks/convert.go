@@ -48,13 +48,13 @@ func SpectrumRequestFromProto(p *frustumv1.SpectrumParameters) (ed.SpectrumReque
 	l := p.GetLanczos()
 	return ed.SpectrumRequest{Field: field, Levels: int(p.GetLevels()), Method: ed.Method(p.GetMethod()),
 		Lanczos:      ed.LanczosOptions{Tol: l.GetTolerance(), Seed: l.GetSeed(), MaxIterations: int(l.GetMaxIterations()), Basis: int(l.GetBasis())},
-		Correlations: p.GetCorrelations(), NoSpatialSymmetry: p.GetNoSpatialSymmetry()}, nil
+		Correlations: p.GetCorrelations(), NoSpatialSymmetry: p.GetNoSpatialSymmetry(), Sectors: slices.Clone(p.GetSectors())}, nil
 }
 
 // SpectrumParametersToProto converts an engine request to spectrum parameters.
 func SpectrumParametersToProto(r ed.SpectrumRequest) *frustumv1.SpectrumParameters {
 	p := &frustumv1.SpectrumParameters{Field: vectorToProto(r.Field), Levels: int32(r.Levels), Method: string(r.Method),
-		Correlations: r.Correlations, NoSpatialSymmetry: r.NoSpatialSymmetry}
+		Correlations: r.Correlations, NoSpatialSymmetry: r.NoSpatialSymmetry, Sectors: slices.Clone(r.Sectors)}
 	if r.Lanczos != (ed.LanczosOptions{}) {
 		p.Lanczos = &frustumv1.LanczosParameters{Tolerance: r.Lanczos.Tol, Seed: r.Lanczos.Seed,
 			MaxIterations: int32(r.Lanczos.MaxIterations), Basis: int32(r.Lanczos.Basis)}

@@ -112,11 +112,12 @@ func TestMagnetizationResultRoundTrip(t *testing.T) {
 }
 
 func TestParametersRoundTrip(t *testing.T) {
-	s := ed.SpectrumRequest{Field: [3]float64{-1, 0, 0}, Levels: 12}
-	if got, err := SpectrumRequestFromProto(SpectrumParametersToProto(s)); err != nil || got != s {
+	s := ed.SpectrumRequest{Field: [3]float64{-1, 0, 0}, Levels: 12, Method: ed.MethodLanczos, Correlations: true,
+		Lanczos: ed.LanczosOptions{Tol: 1e-9, Seed: 4}, Sectors: []string{"Sz=0"}}
+	if got, err := SpectrumRequestFromProto(SpectrumParametersToProto(s)); err != nil || !reflect.DeepEqual(got, s) {
 		t.Errorf("spectrum parameters: %+v, %v; want %+v", got, err, s)
 	}
-	th := ed.ThermoRequest{Temperatures: []float64{0.5, 1, 300}, Field: [3]float64{0, 0, 5}}
+	th := ed.ThermoRequest{Temperatures: []float64{0.5, 1, 300}, Field: [3]float64{0, 0, 5}, Method: ed.MethodFTLM, FTLM: ed.FTLMOptions{Vectors: 8, Seed: 2}}
 	if got, err := ThermoRequestFromProto(ThermoParametersToProto(th)); err != nil || !reflect.DeepEqual(got, th) {
 		t.Errorf("thermo parameters: %+v, %v; want %+v", got, err, th)
 	}
@@ -125,7 +126,7 @@ func TestParametersRoundTrip(t *testing.T) {
 		t.Errorf("magnetization parameters: %+v, %v; want %+v", got, err, m)
 	}
 	// Absent vectors and nil messages are the defaults.
-	if got, err := SpectrumRequestFromProto(nil); err != nil || got != (ed.SpectrumRequest{}) {
+	if got, err := SpectrumRequestFromProto(nil); err != nil || !reflect.DeepEqual(got, ed.SpectrumRequest{}) {
 		t.Errorf("SpectrumRequestFromProto(nil) = %+v, %v", got, err)
 	}
 	if got, err := MagnetizationRequestFromProto(&frustumv1.MagnetizationParameters{Fields: []float64{1}}); err != nil || got.Direction != [3]float64{} {

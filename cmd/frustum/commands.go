@@ -63,7 +63,7 @@ func findTask(name string) *task {
 
 var spectrumTask = &task{
 	name:     "spectrum",
-	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K] [--method auto|full|lanczos] [--correlations] [--tol TOL] [--seed N] [--no-spatial-symmetry]",
+	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K] [--method auto|full|lanczos] [--correlations] [--tol TOL] [--seed N] [--sector SEL ...] [--no-spatial-symmetry]",
 	about: `Prints the energy levels of the cluster at one field: each level's energy (K),
 its energy above the ground state, its degeneracy, and its total S^z and total
 spin S where those are good quantum numbers. --csv prints one row per level;
@@ -113,6 +113,11 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 			return nil
 		})
 		fs.boolFlag(&noSym, "no-spatial-symmetry", "Lanczos in S^z sectors only, without the cluster's symmetries")
+		var sectors []string
+		fs.funcFlag("sector", "solve only the Lanczos sectors whose labels contain every component of `SEL`, such as 'Sz=0' or 'Sz=0, T1:k=15/30' (repeat for several)", func(s string) error {
+			sectors = append(sectors, s)
+			return nil
+		})
 		return func() (*frustumv1.JobSpec, error) {
 			switch method {
 			case "", "auto", "full", "lanczos":
@@ -123,7 +128,7 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 			if err != nil {
 				return nil, err
 			}
-			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels), Method: method, Correlations: corr, NoSpatialSymmetry: noSym}
+			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels), Method: method, Correlations: corr, NoSpatialSymmetry: noSym, Sectors: sectors}
 			if lp.Tolerance != 0 || lp.Seed != 0 {
 				p.Lanczos = &lp
 			}

@@ -298,6 +298,7 @@ var requestFlags = map[string]string{
 	"lanczos.tol":  "--tol",
 	"ftlm.vectors": "--vectors",
 	"ftlm.steps":   "--steps",
+	"sectors":      "--sector",
 	// The fit's parameters.
 	"data":            "--data",
 	"observable":      "--observable",

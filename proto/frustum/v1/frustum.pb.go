@@ -365,8 +365,13 @@ type SpectrumParameters struct {
 	// and comparisons); by default the cluster's symmetries, or its
 	// automorphisms when it declares none, split the sectors further.
 	NoSpatialSymmetry bool `protobuf:"varint,6,opt,name=no_spatial_symmetry,json=noSpatialSymmetry,proto3" json:"no_spatial_symmetry,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// sectors, when not empty, restricts the Lanczos route to the sectors
+	// whose labels contain every comma-separated component of one entry, for
+	// example "Sz=0" or "Sz=0, T1:k=15/30"; levels of the other sectors are
+	// then missing from the result, which says so.
+	Sectors       []string `protobuf:"bytes,7,rep,name=sectors,proto3" json:"sectors,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *SpectrumParameters) Reset() {
@@ -439,6 +444,13 @@ func (x *SpectrumParameters) GetNoSpatialSymmetry() bool {
 		return x.NoSpatialSymmetry
 	}
 	return false
+}
+
+func (x *SpectrumParameters) GetSectors() []string {
+	if x != nil {
+		return x.Sectors
+	}
+	return nil
 }
 
 // LanczosParameters tune the Lanczos route; zero values are the defaults.
@@ -2748,14 +2760,15 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x05bonds\x18\x03 \x03(\v2\x10.frustum.v1.BondR\x05bonds\x124\n" +
 	"\n" +
 	"symmetries\x18\x04 \x03(\v2\x14.frustum.v1.SymmetryR\n" +
-	"symmetries\"\xe7\x01\n" +
+	"symmetries\"\x81\x02\n" +
 	"\x12SpectrumParameters\x12\x14\n" +
 	"\x05field\x18\x01 \x03(\x01R\x05field\x12\x16\n" +
 	"\x06levels\x18\x02 \x01(\x05R\x06levels\x12\x16\n" +
 	"\x06method\x18\x03 \x01(\tR\x06method\x127\n" +
 	"\alanczos\x18\x04 \x01(\v2\x1d.frustum.v1.LanczosParametersR\alanczos\x12\"\n" +
 	"\fcorrelations\x18\x05 \x01(\bR\fcorrelations\x12.\n" +
-	"\x13no_spatial_symmetry\x18\x06 \x01(\bR\x11noSpatialSymmetry\"\x82\x01\n" +
+	"\x13no_spatial_symmetry\x18\x06 \x01(\bR\x11noSpatialSymmetry\x12\x18\n" +
+	"\asectors\x18\a \x03(\tR\asectors\"\x82\x01\n" +
 	"\x11LanczosParameters\x12\x1c\n" +
 	"\ttolerance\x18\x01 \x01(\x01R\ttolerance\x12\x12\n" +
 	"\x04seed\x18\x02 \x01(\x04R\x04seed\x12%\n" +
