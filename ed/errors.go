@@ -14,7 +14,7 @@ type LimitError struct {
 }
 
 func (e *LimitError) Error() string {
-	return fmt.Sprintf("task too large: Hilbert space of %d states (largest dense block %d) needs about %s, over the memory limit of %s",
+	return fmt.Sprintf("task too large: Hilbert space of %d states (largest block %d) needs about %s, over the memory limit of %s",
 		e.Dimension, e.LargestSector, FormatBytes(e.Need), FormatBytes(e.Limit))
 }
 
