@@ -280,9 +280,10 @@ class Errors(unittest.TestCase):
         self.assertEqual(e.metadata["sites"], "41")
 
     def test_over_memory(self):
-        # 20 spins with DM vectors along x: no conserved S^z, one dense
-        # block of 2^20 complex states, far beyond any memory limit.
-        n = 20
+        # 34 spins with DM vectors along x: no conserved S^z, one block of
+        # 2^34 complex states; even the Lanczos route's vectors (2^34 x 16
+        # bytes each) are far beyond any memory limit.
+        n = 34
         big = {"name": "20-spin DM chain", "sites": [{"label": f"s{i}"} for i in range(n)],
                "bonds": [{"a": f"s{i}", "b": f"s{i + 1}", "exchange": 1.0, "dm": [0.1, 0, 0]} for i in range(n - 1)]}
         with self.assertRaises(ResourceExhausted) as cm:
