@@ -305,15 +305,6 @@ func inner[T Scalar](x, y []T) complex128 {
 	return complex(r, 0)
 }
 
-func abs2[T Scalar](z T) float64 {
-	f := floats([]T{z})
-	var s float64
-	for _, x := range f {
-		s += x * x
-	}
-	return s
-}
-
 // scalar returns re + i im as a T; im must be 0 for real T.
 func scalar[T Scalar](re, im float64) T {
 	var z T

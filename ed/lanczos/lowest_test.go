@@ -29,13 +29,19 @@ func TestLowestRandomSparse(t *testing.T) {
 func testLowestRandom[T Scalar](t *testing.T, n, k int, seed uint64) {
 	a := randomSparse[T](n, 8, seed)
 	ref := denseEigenvalues(t, a.dense(), n)
-	res, err := Lowest(context.Background(), a, Options[T]{K: k, Vectors: true, Seed: seed})
+	for _, mode := range []Reorthogonalization{Partial, Full} {
+		testLowestRandomMode(t, a, ref, n, k, seed, mode)
+	}
+}
+
+func testLowestRandomMode[T Scalar](t *testing.T, a *sparse[T], ref []float64, n, k int, seed uint64, mode Reorthogonalization) {
+	res, err := Lowest(context.Background(), a, Options[T]{K: k, Vectors: true, Seed: seed, Reorthogonalization: mode})
 	if err != nil {
 		t.Fatal(err)
 	}
-	name := "real"
+	name := "real " + mode.String()
 	if isComplex[T]() {
-		name = "complex"
+		name = "complex " + mode.String()
 	}
 	if !res.Converged {
 		t.Errorf("%s n=%d K=%d: not converged: %v", name, n, k, res.Warnings)
@@ -65,7 +71,7 @@ func testLowestRandom[T Scalar](t *testing.T, n, k int, seed uint64) {
 			}
 		}
 	}
-	t.Logf("%s n=%d K=%d: %d matvecs, %d restarts", name, n, k, res.Matvecs, res.Restarts)
+	t.Logf("%s n=%d K=%d: %d matvecs, %d restarts, %d reorthogonalized", name, n, k, res.Matvecs, res.Restarts, res.Reorthogonalizations)
 }
 
 // The tight-binding ring, H = -sum_j (e^{i phi}|j><j+1| + h.c.), has the
@@ -173,11 +179,17 @@ func testDegenerate[T Scalar](t *testing.T, copies, n int) {
 	h := blockDiagonal(a, copies)
 	levels := denseEigenvalues(t, a.dense(), n) // each of multiplicity copies
 	ref := denseEigenvalues(t, h.dense(), h.n)
+	for _, mode := range []Reorthogonalization{Partial, Full} {
+		testDegenerateMode(t, h, levels, ref, copies, n, mode)
+	}
+}
+
+func testDegenerateMode[T Scalar](t *testing.T, h *sparse[T], levels, ref []float64, copies, n int, mode Reorthogonalization) {
 	const k = 6
-	name := fmt.Sprintf("%T copies=%d n=%d", *new(T), copies, n)
+	name := fmt.Sprintf("%T %v copies=%d n=%d", *new(T), mode, copies, n)
 
 	// Documented lower bound without Multiplicities.
-	res, err := Lowest(context.Background(), h, Options[T]{K: k, Vectors: true})
+	res, err := Lowest(context.Background(), h, Options[T]{K: k, Vectors: true, Reorthogonalization: mode})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -226,7 +238,7 @@ func testDegenerate[T Scalar](t *testing.T, copies, n int) {
 	}
 
 	// Complete multiplicities.
-	res, err = Lowest(context.Background(), h, Options[T]{K: k, Multiplicities: true, Vectors: true, Seed: 5})
+	res, err = Lowest(context.Background(), h, Options[T]{K: k, Multiplicities: true, Vectors: true, Seed: 5, Reorthogonalization: mode})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -264,15 +276,18 @@ func TestLowestReproducible(t *testing.T) {
 	sameResult(t, "complex n=300", r1, r2)
 
 	op := &ring[float64]{n: 1<<17 + 3, v: 1, parallel: true}
-	prev := runtime.GOMAXPROCS(1)
-	s1, err1 := Lowest(context.Background(), op, Options[float64]{Vectors: true, Seed: 3})
-	runtime.GOMAXPROCS(max(2, prev))
-	s2, err2 := Lowest(context.Background(), op, Options[float64]{Vectors: true, Seed: 3})
-	runtime.GOMAXPROCS(prev)
-	if err1 != nil || err2 != nil {
-		t.Fatal(err1, err2)
+	for _, mode := range []Reorthogonalization{Partial, Full} {
+		o := Options[float64]{Vectors: true, Seed: 3, Reorthogonalization: mode}
+		prev := runtime.GOMAXPROCS(1)
+		s1, err1 := Lowest(context.Background(), op, o)
+		runtime.GOMAXPROCS(max(2, prev))
+		s2, err2 := Lowest(context.Background(), op, o)
+		runtime.GOMAXPROCS(prev)
+		if err1 != nil || err2 != nil {
+			t.Fatal(err1, err2)
+		}
+		sameResult(t, "ring 2^17+3, GOMAXPROCS 1 and 2, "+mode.String(), s1, s2)
 	}
-	sameResult(t, "ring 2^17+3, GOMAXPROCS 1 and 2", s1, s2)
 }
 
 func sameResult[T Scalar](t *testing.T, name string, a, b *Result[T]) {
@@ -384,13 +399,15 @@ func TestLowestBudget(t *testing.T) {
 
 // Invalid options are errors, as Options documents: K outside 1..Dim, a
 // negative or NaN Tol, Basis below K+2 (2K+2 with Multiplicities),
-// MaxIterations below 2K, a start vector of the wrong length or zero.
+// MaxIterations below 2K, a start vector of the wrong length or zero, an
+// unknown Reorthogonalization.
 func TestLowestOptionErrors(t *testing.T) {
 	op := &ring[float64]{n: 50}
 	for _, o := range []Options[float64]{
 		{K: 51}, {K: -1}, {Tol: -1}, {Tol: math.NaN()}, {K: 5, Basis: 6},
 		{K: 5, Basis: 11, Multiplicities: true}, {K: 3, MaxIterations: 5},
 		{Start: make([]float64, 49)}, {Start: make([]float64, 50)},
+		{Reorthogonalization: Full + 1},
 	} {
 		if _, err := Lowest(context.Background(), op, o); err == nil {
 			t.Errorf("options %+v: no error", o)

@@ -10,9 +10,11 @@ const smallWork = 1 << 18
 // allocates for a problem of dimension dim with real (complex false) or
 // complex vectors: basis+1 vectors of dim elements for a Lowest basis of
 // the given size (0 for none), plus vectors further vectors of dim
-// elements, plus the small per-basis work (the projected matrices, the
-// per-chunk partial sums and the per-goroutine buffers of the in-place
-// Ritz-vector update, for up to runtime.GOMAXPROCS(0) goroutines).
+// elements, plus the small per-basis work (the projected matrices and the
+// omega estimates, the per-chunk partial sums of the reductions and the
+// Gram matrices, and the per-goroutine buffers of the in-place Ritz-vector
+// update, for up to runtime.GOMAXPROCS(0) goroutines). The estimate holds
+// for either Reorthogonalization.
 //
 //   - Lowest: MemoryEstimate(dim, DefaultBasis(dim, K), complex, 0) when
 //     Options.Basis is 0 (or the Basis given, reduced to dim). The returned
@@ -41,8 +43,15 @@ func MemoryEstimate(dim int, basis int, complex bool, vectors int) int64 {
 		// Projected matrix t and its copies in one restart cycle (symmetric
 		// matrix, eigenvectors twice, kept rows), coefficient vectors.
 		total += 6*(b+1)*(b+1)*8 + 4*(b+1)*elem
-		// Per-chunk partial sums: 2(b+1)+1 floats per chunk.
-		total += chunks * (2*(b+1) + 1) * 8
+		// Partial: omega estimates and Gram matrix, and the small complex
+		// matrices of settle (eight of (b+1)^2).
+		total += (b+1)*(b+1)*(8+elem) + 8*(b+1)*(b+1)*16
+		// Partial sums, one buffer for all reductions: 2(b+1)+1 floats per
+		// chunk, or the packed Gram matrix of up to b+1 vectors per block
+		// of ng/64 chunks (see combine).
+		ng := (b + 1) * (b + 2) / 2 * (elem / 8)
+		cpb := max(1, ng/64)
+		total += max(chunks*(2*(b+1)+1), ((chunks+cpb-1)/cpb)*ng) * 8
 		// Ritz-vector update: b chunk-sized buffers per goroutine.
 		total += workers * b * min(chunk, d) * elem
 	} else if nvec > 0 {

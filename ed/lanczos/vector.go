@@ -124,6 +124,39 @@ func forChunks[T Scalar](n int, fn func(t, c, lo, hi int)) {
 	wg.Wait()
 }
 
+// forBlocks is forChunks over blocks of cpb consecutive chunks: it calls
+// fn(t, blk, lo, hi) for every chunk [lo, hi) of block blk, the chunks of a
+// block in order by the same goroutine t, which takes the fixed range of
+// blocks [t nb/w, (t+1) nb/w) of the nb blocks (w = chunkWorkers(n), at
+// most nb).
+func forBlocks[T Scalar](n, cpb int, fn func(t, blk, lo, hi int)) {
+	nc := numChunks[T](n)
+	nb := (nc + cpb - 1) / cpb
+	w := min(chunkWorkers[T](n), nb)
+	cl := chunkLen[T]()
+	run := func(t int) {
+		for blk := t * nb / w; blk < (t+1)*nb/w; blk++ {
+			for c := blk * cpb; c < min(nc, (blk+1)*cpb); c++ {
+				fn(t, blk, c*cl, min(n, (c+1)*cl))
+			}
+		}
+	}
+	if w <= 1 {
+		run(0)
+		return
+	}
+	var wg sync.WaitGroup
+	wg.Add(w - 1)
+	for t := 1; t < w; t++ {
+		go func() {
+			defer wg.Done()
+			run(t)
+		}()
+	}
+	run(0)
+	wg.Wait()
+}
+
 // workspace holds the per-chunk partial sums of the reductions and the
 // per-goroutine buffers of combine, reused from call to call.
 type workspace struct {
@@ -210,49 +243,67 @@ func storeCoefficients[T Scalar](sums []float64, out []T, cplx bool) {
 // out[i] = <vs[i], w> with the updated w, in the same pass. It returns the
 // updated ||w||^2.
 func subtract[T Scalar](ws *workspace, vs [][]T, c []T, w []T, out []T) float64 {
+	if out == nil {
+		return update(ws, vs, c, w, nil, nil)
+	}
+	return update(ws, vs, c, w, vs, out)
+}
+
+// update sets w -= sum_i c[i] sub[i], skipping the vectors whose
+// coefficient is zero (they are not read), then out[i] = <dots[i], w> with
+// the updated w (out must have len(dots) elements), all in one pass over
+// the chunks, and returns the updated ||w||^2.
+func update[T Scalar](ws *workspace, sub [][]T, c []T, w []T, dots [][]T, out []T) float64 {
 	n := len(w)
-	nv := len(vs)
+	nd := len(dots)
 	cplx := isComplex[T]()
-	stride := 1
-	if out != nil {
-		stride = nv + 1
-		if cplx {
-			stride = 2*nv + 1
-		}
+	stride := nd + 1
+	if cplx {
+		stride = 2*nd + 1
 	}
 	p := ws.partials(numChunks[T](n) * stride)
 	forChunks[T](n, func(_, ch, lo, hi int) {
-		if cplx {
-			wc := complexes(w[lo:hi])
-			cc := complexes(c)
-			for i, v := range vs {
-				if cc[i] != 0 {
-					blasImpl.Zaxpy(hi-lo, -cc[i], complexes(v[lo:hi]), 1, wc, 1)
-				}
-			}
-		} else {
-			wf := floats(w[lo:hi])
-			cf := floats(c)
-			for i, v := range vs {
-				if cf[i] != 0 {
-					blasImpl.Daxpy(hi-lo, -cf[i], floats(v[lo:hi]), 1, wf, 1)
-				}
-			}
-		}
+		axpyChunk(sub, c, w, lo, hi, cplx)
 		q := p[ch*stride : (ch+1)*stride]
-		if out != nil {
-			chunkDots(vs, w, lo, hi, q, cplx)
-			return
-		}
-		wf := floats(w[lo:hi])
-		q[0] = blasImpl.Ddot(len(wf), wf, 1, wf, 1)
+		chunkDots(dots, w, lo, hi, q, cplx)
 	})
 	sums := make([]float64, stride)
 	sumPartials(p, stride, sums)
-	if out != nil {
-		storeCoefficients(sums, out, cplx)
-	}
+	storeCoefficients(sums[:stride-1], out, cplx)
 	return sums[stride-1]
+}
+
+// axpyChunk sets w[lo:hi] -= sum_i c[i] sub[i][lo:hi], skipping zero
+// coefficients.
+func axpyChunk[T Scalar](sub [][]T, c []T, w []T, lo, hi int, cplx bool) {
+	if cplx {
+		wc := complexes(w[lo:hi])
+		cc := complexes(c)
+		for i, v := range sub {
+			if cc[i] != 0 {
+				blasImpl.Zaxpy(hi-lo, -cc[i], complexes(v[lo:hi]), 1, wc, 1)
+			}
+		}
+		return
+	}
+	wf := floats(w[lo:hi])
+	cf := floats(c)
+	for i, v := range sub {
+		if cf[i] != 0 {
+			blasImpl.Daxpy(hi-lo, -cf[i], floats(v[lo:hi]), 1, wf, 1)
+		}
+	}
+}
+
+// subtractScale sets w = a (w - sum_i c[i] sub[i]) for real a, in one pass
+// (zero coefficients skipped).
+func subtractScale[T Scalar](sub [][]T, c []T, w []T, a float64) {
+	cplx := isComplex[T]()
+	forChunks[T](len(w), func(_, _, lo, hi int) {
+		axpyChunk(sub, c, w, lo, hi, cplx)
+		f := floats(w[lo:hi])
+		blasImpl.Dscal(len(f), a, f, 1)
+	})
 }
 
 // norm2 returns ||x||^2.
@@ -277,17 +328,26 @@ func scale[T Scalar](x []T, a float64) {
 	})
 }
 
-// combine replaces vs[l] by sum_i u[i*k+l] vs[i] for l < k, in place, for
-// the real b x k matrix u (row-major, b = len(vs)). Each chunk is formed in a
-// scratch buffer of k chunks (one buffer per goroutine) before it is written
-// back, so no extra vector is allocated.
-func combine[T Scalar](ws *workspace, vs [][]T, u []float64, k int) {
+// combine sets out[l] = sum_i u[i*k+l] vs[i] for l < k = len(out), for the
+// real len(vs) x k matrix u (row-major), or with the coefficients uc[i*k+l]
+// of type T when u is nil. out may be vs[:k] (in place) or k
+// vectors that overlap none of vs: each chunk of the k results is formed in
+// a scratch buffer of k chunks (one buffer per goroutine) before it is
+// written, so no extra vector is allocated.
+//
+// When gram is not nil (at least (k+1)^2 elements) the same pass also
+// computes the Gram matrix of the results, gram[a*(k+1)+c] = <out[c],
+// out[a]> for c <= a < k, and, when extra is not nil, gram[k*(k+1)+c] =
+// <out[c], extra>.
+func combine[T Scalar](ws *workspace, vs [][]T, u []float64, uc []T, out [][]T, gram []T, extra []T) {
+	k := len(out)
 	if len(vs) == 0 || k == 0 {
 		return
 	}
 	n := len(vs[0])
 	var z T
 	per := int(unsafe.Sizeof(z) / 8)
+	cplx := per == 2
 	w := chunkWorkers[T](n)
 	for len(ws.scratch) < w {
 		ws.scratch = append(ws.scratch, nil)
@@ -298,22 +358,131 @@ func combine[T Scalar](ws *workspace, vs [][]T, u []float64, k int) {
 			scratch[t] = make([]float64, need)
 		}
 	}
-	forChunks[T](n, func(t, _, lo, hi int) {
+	// packed Gram partials: the lower triangle row by row, then the dots
+	// with extra; real and imaginary parts for complex T.
+	ng := 0
+	if gram != nil {
+		ng = k * (k + 1) / 2
+		if extra != nil {
+			ng += k
+		}
+		ng *= per
+	}
+	// The partials are kept per block of cpb chunks, so that they take
+	// about Dim/64 floats whatever k is; a block's chunks are summed in
+	// order.
+	cpb := max(1, ng/64)
+	var p []float64
+	var tmp [][]float64
+	if ng > 0 {
+		p = ws.partials((numChunks[T](n) + cpb - 1) / cpb * ng)
+		tmp = make([][]float64, w)
+		for t := range tmp {
+			tmp[t] = make([]float64, ng)
+		}
+	}
+	forBlocks[T](n, cpb, func(t, blk, lo, hi int) {
 		buf := scratch[t]
 		m := (hi - lo) * per
+		combineChunk(vs, u, uc, k, lo, hi, per, buf[:k*m])
+		if ng > 0 {
+			q := tmp[t]
+			at := 0
+			for a := range k {
+				ya := buf[a*m : (a+1)*m]
+				for c := 0; c <= a; c++ {
+					at += chunkDot(buf[c*m:(c+1)*m], ya, q[at:], cplx)
+				}
+			}
+			if extra != nil {
+				xe := floats(extra[lo:hi])
+				for c := range k {
+					at += chunkDot(buf[c*m:(c+1)*m], xe, q[at:], cplx)
+				}
+			}
+			pb := p[blk*ng : (blk+1)*ng]
+			for i, x := range q {
+				pb[i] += x
+			}
+		}
 		for l := range k {
-			acc := buf[l*m : (l+1)*m]
-			clear(acc)
+			copy(floats(out[l][lo:hi]), buf[l*m:(l+1)*m])
+		}
+	})
+	if ng > 0 {
+		sums := make([]float64, ng)
+		sumPartials(p, ng, sums)
+		gf := floats(gram)
+		at := 0
+		put := func(i int) {
+			copy(gf[i*per:(i+1)*per], sums[at:at+per])
+			at += per
+		}
+		for a := range k {
+			for c := 0; c <= a; c++ {
+				put(a*(k+1) + c)
+			}
+		}
+		if extra != nil {
+			for c := range k {
+				put(k*(k+1) + c)
+			}
+		}
+	}
+}
+
+// chunkDot writes <x, y> (x conjugated; real and imaginary parts for
+// complex T) of two float views into q and returns the number of floats
+// written.
+func chunkDot(x, y []float64, q []float64, cplx bool) int {
+	if cplx {
+		d := blasImpl.Zdotc(len(x)/2, asComplex(x), 1, asComplex(y), 1)
+		q[0], q[1] = real(d), imag(d)
+		return 2
+	}
+	q[0] = blasImpl.Ddot(len(x), x, 1, y, 1)
+	return 1
+}
+
+// asComplex views interleaved real and imaginary parts as complex128s.
+func asComplex(f []float64) []complex128 {
+	if len(f) == 0 {
+		return nil
+	}
+	return unsafe.Slice((*complex128)(unsafe.Pointer(unsafe.SliceData(f))), len(f)/2)
+}
+
+// combineChunk sets buf[l*m:(l+1)*m] = sum_i u[i*k+l] vs[i][lo:hi] (float
+// views, m = (hi-lo) per) for l < k, with the coefficients uc when u is nil.
+func combineChunk[T Scalar](vs [][]T, u []float64, uc []T, k, lo, hi, per int, buf []float64) {
+	m := (hi - lo) * per
+	for l := range k {
+		acc := buf[l*m : (l+1)*m]
+		clear(acc)
+		switch {
+		case u != nil:
 			for i, v := range vs {
 				if a := u[i*k+l]; a != 0 {
 					blasImpl.Daxpy(m, a, floats(v[lo:hi]), 1, acc, 1)
 				}
 			}
+		case per == 2:
+			cc := complexes(uc)
+			ac := asComplex(acc)
+			for i, v := range vs {
+				if a := cc[i*k+l]; a != 0 {
+					blasImpl.Zaxpy(hi-lo, a, complexes(v[lo:hi]), 1, ac, 1)
+				}
+			}
+		default:
+			cf := floats(uc)
+			for i, v := range vs {
+				if a := cf[i*k+l]; a != 0 {
+					blasImpl.Daxpy(m, a, floats(v[lo:hi]), 1, acc, 1)
+				}
+			}
 		}
-		for l := range k {
-			copy(floats(vs[l][lo:hi]), buf[l*m:(l+1)*m])
-		}
-	})
+	}
 }
 
 // fillUniform fills x with components uniform in [-1, 1) (real and
