@@ -95,6 +95,12 @@ func planFTLM(m *cluster.Model, st *setup, op *operator, opts FTLMOptions, inver
 	return &ftlmPlan{kp: kp, opts: opts.withDefaults()}, nil
 }
 
+// report starts the engine report of the FTLM route.
+func (fp *ftlmPlan) report(dimension int64) Report {
+	return fp.kp.report("finite-temperature Lanczos", dimension,
+		fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0)))
+}
+
 // sampleSector returns the FTLM samples of one sector: exact for small
 // sectors, R random vectors of M steps otherwise.
 func sampleSector(ctx context.Context, fp *ftlmPlan, s krylovSector, index int, opt Options) (lanczos.SectorSamples, int, error) {
@@ -357,16 +363,7 @@ func planMagnetizationFTLM(m *cluster.Model, req MagnetizationRequest, p *taskPl
 	p.ftlm = fp
 	dimension, _ := m.Dimension()
 	kp := fp.kp
-	p.rep = Report{Method: "finite-temperature Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
-		Solver:   fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0)),
-		Symmetry: kp.groups.about}
-	for _, s := range kp.sectors {
-		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
-		if s.twoSz != hilbert.NoSz {
-			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
-		}
-		p.rep.Sectors = append(p.rep.Sectors, sec)
-	}
+	p.rep = fp.report(dimension)
 	why := ""
 	if dense != nil {
 		why = fmt.Sprintf(" (full diagonalization does not fit: %v)", dense)

@@ -237,6 +237,20 @@ func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inver
 	return p, nil
 }
 
+// report starts the engine report of the plan: method, solver, symmetry,
+// memory and every sector with its dimension.
+func (p *krylovPlan) report(method string, dimension int64, solver string) Report {
+	r := Report{Method: method, Dimension: dimension, Complex: p.complexH, MemoryBytes: p.need, Solver: solver, Symmetry: p.groups.about}
+	for _, s := range p.sectors {
+		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
+		if s.twoSz != hilbert.NoSz {
+			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
+		}
+		r.Sectors = append(r.Sectors, sec)
+	}
+	return r
+}
+
 // baseOverhead is a fixed allowance for everything but the sector's arrays.
 const baseOverhead = 16 << 20
 

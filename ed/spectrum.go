@@ -8,7 +8,6 @@ import (
 	"sort"
 
 	"frustum/cluster"
-	"frustum/ed/hilbert"
 )
 
 // Spectrum diagonalizes the cluster at one field and returns every eigenvalue
@@ -146,19 +145,15 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	if !ok {
 		return nil, &RequestError{Field: "cluster", Reason: "Hilbert space too large to index"}
 	}
-	var st *setup
+	st := newSetup(m, n, B != 0)
 	// Diagonalize H0 when the field only shifts its sectors.
-	p := &taskPlan{B: B}
+	p := &taskPlan{st: st, B: B, analytic: B == 0 || st.uniform, op: st.h0}
+	if !p.analytic {
+		p.op = st.hamiltonian(B)
+	}
+	p.isReal = p.op.isReal()
 	var denseErr error
 	if dimension <= 1<<31-1 {
-		st = newSetup(m, n, B != 0)
-		p.st = st
-		p.analytic = B == 0 || st.uniform
-		p.op = st.h0
-		if !p.analytic {
-			p.op = st.hamiltonian(B)
-		}
-		p.isReal = p.op.isReal()
 		w := newWorkload(st, opt, false, false, false, 1)
 		w.complex = !p.isReal
 		mem, workers, err := w.check(opt.Limits)
@@ -187,15 +182,6 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 		}
 	} else if req.Method == MethodFull {
 		return nil, &RequestError{Field: "cluster", Reason: fmt.Sprintf("Hilbert space of %d sites is beyond full diagonalization (more than 2^31 states)", len(m.Sites))}
-	} else {
-		st = newSetup(m, n, B != 0)
-		p.st = st
-		p.analytic = B == 0 || st.uniform
-		p.op = st.h0
-		if !p.analytic {
-			p.op = st.hamiltonian(B)
-		}
-		p.isReal = p.op.isReal()
 	}
 	// The Lanczos route.
 	k := req.Levels
@@ -220,15 +206,7 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 		return nil, err
 	}
 	p.krylov = kp
-	p.rep = Report{Method: "Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
-		Solver: "thick-restart Lanczos, full reorthogonalization", Symmetry: kp.groups.about}
-	for _, s := range kp.sectors {
-		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
-		if s.twoSz != hilbert.NoSz {
-			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
-		}
-		p.rep.Sectors = append(p.rep.Sectors, sec)
-	}
+	p.rep = kp.report("Lanczos", dimension, "thick-restart Lanczos, partial reorthogonalization")
 	op := "matrix-free"
 	if kp.csr {
 		op = "compact CSR matrix per sector"

@@ -9,7 +9,6 @@ import (
 	"gonum.org/v1/gonum/blas/gonum"
 
 	"frustum/cluster"
-	"frustum/ed/hilbert"
 )
 
 // Thermo returns the thermodynamics of the cluster at one field from its full
@@ -202,16 +201,7 @@ func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, er
 	fp.moments = p.analytic && st.conserveSz
 	p.ftlm = fp
 	kp := fp.kp
-	p.rep = Report{Method: "finite-temperature Lanczos", Dimension: dimension, Complex: kp.complexH, MemoryBytes: kp.need,
-		Solver:   fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0)),
-		Symmetry: kp.groups.about}
-	for _, s := range kp.sectors {
-		sec := Sector{Label: s.label, Dimension: int(s.mem.Dim)}
-		if s.twoSz != hilbert.NoSz {
-			sec.HasSz, sec.Sz = true, float64(s.twoSz)/2
-		}
-		p.rep.Sectors = append(p.rep.Sectors, sec)
-	}
+	p.rep = fp.report(dimension)
 	why := ""
 	if denseErr != nil {
 		why = fmt.Sprintf(" (full diagonalization does not fit: %v)", denseErr)
