@@ -104,62 +104,55 @@ func (fp *ftlmPlan) report(dimension int64) Report {
 // sampleSector returns the FTLM samples of one sector: exact for small
 // sectors, R random vectors of M steps otherwise.
 func sampleSector(ctx context.Context, fp *ftlmPlan, s krylovSector, index int, opt Options) (lanczos.SectorSamples, int, error) {
-	out := lanczos.SectorSamples{Dimension: s.mem.Dim}
 	sec, err := hilbert.NewSectorContext(ctx, fp.kp.h, s.twoSz, s.group, s.irrep, hilbert.SectorOptions{Workers: opt.Workers})
 	if err != nil {
-		return out, 0, err
+		return lanczos.SectorSamples{Dimension: s.mem.Dim}, 0, err
 	}
-	dim := sec.Dim()
 	rng := rand.New(rand.NewPCG(fp.opts.Seed, uint64(index)+0x5eed))
-	if sec.IsReal() {
-		var op lanczos.Operator[float64]
-		if fp.kp.csr {
-			csr, err := sec.MatrixReal(ctx)
-			if err != nil {
-				return out, 0, err
-			}
-			op = csr
-		} else {
-			rs, err := sec.Real()
-			if err != nil {
-				return out, 0, err
-			}
-			op = rs
-		}
-		if dim <= fp.opts.ExactBelow {
-			r, err := exactRitzReal(ctx, op, dim)
-			out.Exact, out.Samples = true, []*lanczos.Ritz{r}
-			return out, dim, err
-		}
-		smp := lanczos.NewSampler(op)
-		mv := 0
-		for v := 0; v < fp.opts.Vectors; v++ {
-			r, err := smp.Sample(ctx, lanczos.RandomVector[float64](dim, rng), fp.opts.Steps)
-			if err != nil {
-				return out, mv, err
-			}
-			mv += r.Steps
-			out.Samples = append(out.Samples, r)
-		}
-		return out, mv, nil
+	re, cx, err := sectorOperator(ctx, sec, fp.kp.csr)
+	if err != nil {
+		return lanczos.SectorSamples{Dimension: s.mem.Dim}, 0, err
 	}
-	var op lanczos.Operator[complex128] = sec
-	if fp.kp.csr {
-		csr, err := sec.Matrix(ctx)
+	if re != nil {
+		return sampleOperator(ctx, re, s.mem.Dim, fp.opts, rng, func(a []float64, n int) ([]float64, error) {
+			v, _, err := eigen.SymmetricContext(ctx, a, n, false)
+			return v, err
+		})
+	}
+	return sampleOperator(ctx, cx, s.mem.Dim, fp.opts, rng, func(a []complex128, n int) ([]float64, error) {
+		v, _, err := eigen.HermitianContext(ctx, a, n, false)
+		return v, err
+	})
+}
+
+// sampleOperator samples op: exactly (every eigenvalue with weight 1, from
+// the dense matrix and solve) up to opts.ExactBelow states, else from
+// opts.Vectors random vectors of opts.Steps Lanczos steps. It returns the
+// samples and the operator applications used.
+func sampleOperator[T lanczos.Scalar](ctx context.Context, op lanczos.Operator[T], dim int64, opts FTLMOptions, rng *rand.Rand,
+	solve func(a []T, n int) ([]float64, error)) (lanczos.SectorSamples, int, error) {
+	out := lanczos.SectorSamples{Dimension: dim}
+	n := op.Dim()
+	if n <= opts.ExactBelow {
+		a, err := denseOf(ctx, op)
 		if err != nil {
 			return out, 0, err
 		}
-		op = csr
-	}
-	if dim <= fp.opts.ExactBelow {
-		r, err := exactRitzComplex(ctx, op, dim)
-		out.Exact, out.Samples = true, []*lanczos.Ritz{r}
-		return out, dim, err
+		vals, err := solve(a, n)
+		if err != nil {
+			return out, n, ftlmSolverError(err)
+		}
+		w := make([]float64, n)
+		for i := range w {
+			w[i] = 1
+		}
+		out.Exact, out.Samples = true, []*lanczos.Ritz{{Values: vals, Weights: w, Norm: math.Sqrt(float64(n)), Steps: n}}
+		return out, n, nil
 	}
 	smp := lanczos.NewSampler(op)
 	mv := 0
-	for v := 0; v < fp.opts.Vectors; v++ {
-		r, err := smp.Sample(ctx, lanczos.RandomVector[complex128](dim, rng), fp.opts.Steps)
+	for v := 0; v < opts.Vectors; v++ {
+		r, err := smp.Sample(ctx, lanczos.RandomVector[T](n, rng), opts.Steps)
 		if err != nil {
 			return out, mv, err
 		}
@@ -169,12 +162,13 @@ func sampleSector(ctx context.Context, fp *ftlmPlan, s krylovSector, index int, 
 	return out, mv, nil
 }
 
-// exactRitzReal diagonalizes a small sector densely: every eigenvalue with
-// weight 1, the exact trace.
-func exactRitzReal(ctx context.Context, op lanczos.Operator[float64], n int) (*lanczos.Ritz, error) {
-	a := make([]float64, n*n)
-	e := make([]float64, n)
-	col := make([]float64, n)
+// denseOf returns the matrix of op, row-major, from its action on the unit
+// vectors (one application per column).
+func denseOf[T lanczos.Scalar](ctx context.Context, op lanczos.Operator[T]) ([]T, error) {
+	n := op.Dim()
+	a := make([]T, n*n)
+	e := make([]T, n)
+	col := make([]T, n)
 	for j := 0; j < n; j++ {
 		e[j] = 1
 		if err := op.Apply(ctx, col, e); err != nil {
@@ -185,40 +179,7 @@ func exactRitzReal(ctx context.Context, op lanczos.Operator[float64], n int) (*l
 			a[i*n+j] = col[i]
 		}
 	}
-	vals, _, err := eigen.SymmetricContext(ctx, a, n, false)
-	if err != nil {
-		return nil, ftlmSolverError(err)
-	}
-	w := make([]float64, n)
-	for i := range w {
-		w[i] = 1
-	}
-	return &lanczos.Ritz{Values: vals, Weights: w, Norm: math.Sqrt(float64(n)), Steps: n}, nil
-}
-
-func exactRitzComplex(ctx context.Context, op lanczos.Operator[complex128], n int) (*lanczos.Ritz, error) {
-	a := make([]complex128, n*n)
-	e := make([]complex128, n)
-	col := make([]complex128, n)
-	for j := 0; j < n; j++ {
-		e[j] = 1
-		if err := op.Apply(ctx, col, e); err != nil {
-			return nil, err
-		}
-		e[j] = 0
-		for i := 0; i < n; i++ {
-			a[i*n+j] = col[i]
-		}
-	}
-	vals, _, err := eigen.HermitianContext(ctx, a, n, false)
-	if err != nil {
-		return nil, ftlmSolverError(err)
-	}
-	w := make([]float64, n)
-	for i := range w {
-		w[i] = 1
-	}
-	return &lanczos.Ritz{Values: vals, Weights: w, Norm: math.Sqrt(float64(n)), Steps: n}, nil
+	return a, nil
 }
 
 // ftlmSolverError names a dense failure on a small FTLM sector.

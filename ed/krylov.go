@@ -265,56 +265,60 @@ type sectorResult struct {
 	sector            *hilbert.Sector
 }
 
+// sectorOperator returns the sector's Hamiltonian as a real or (the other
+// nil) complex operator: its compact CSR matrix when csr, matrix-free
+// otherwise.
+func sectorOperator(ctx context.Context, sec *hilbert.Sector, csr bool) (lanczos.Operator[float64], lanczos.Operator[complex128], error) {
+	if sec.IsReal() {
+		if csr {
+			m, err := sec.MatrixReal(ctx)
+			return m, nil, err
+		}
+		rs, err := sec.Real()
+		return rs, nil, err
+	}
+	if csr {
+		m, err := sec.Matrix(ctx)
+		return nil, m, err
+	}
+	return nil, sec, nil
+}
+
 // solveSector builds sector s and finds its lowest k eigenvalues.
 func solveSector(ctx context.Context, p *krylovPlan, s krylovSector, opt Options, lo LanczosOptions, vectors bool) (*sectorResult, error) {
 	sec, err := hilbert.NewSectorContext(ctx, p.h, s.twoSz, s.group, s.irrep, hilbert.SectorOptions{Workers: opt.Workers})
 	if err != nil {
 		return nil, err
 	}
-	k := min(p.k, sec.Dim())
+	re, cx, err := sectorOperator(ctx, sec, p.csr)
+	if err != nil {
+		return nil, err
+	}
 	out := &sectorResult{sector: sec}
-	if sec.IsReal() {
-		var op lanczos.Operator[float64]
-		if p.csr {
-			csr, err := sec.MatrixReal(ctx)
-			if err != nil {
-				return nil, err
-			}
-			op = csr
-		} else {
-			rs, err := sec.Real()
-			if err != nil {
-				return nil, err
-			}
-			op = rs
-		}
-		r, err := lanczos.Lowest(ctx, op, lanczos.Options[float64]{K: k, Vectors: vectors, Tol: lo.Tol, Seed: lo.Seed, MaxIterations: lo.MaxIterations, Basis: lo.Basis})
-		if err != nil {
-			return nil, err
-		}
-		out.values, out.residuals, out.converged, out.matvecs, out.warnings = r.Values, r.Residuals, r.Converged, r.Matvecs, r.Warnings
-		if vectors && len(r.Vectors) > 0 {
-			out.vecR = r.Vectors[0]
-		}
-		return out, nil
+	k := min(p.k, sec.Dim())
+	if re != nil {
+		out.vecR, err = lowestInto(ctx, re, k, vectors, lo, out)
+	} else {
+		out.vecC, err = lowestInto(ctx, cx, k, vectors, lo, out)
 	}
-	var op lanczos.Operator[complex128] = sec
-	if p.csr {
-		csr, err := sec.Matrix(ctx)
-		if err != nil {
-			return nil, err
-		}
-		op = csr
+	if err != nil {
+		return nil, err
 	}
-	r, err := lanczos.Lowest(ctx, op, lanczos.Options[complex128]{K: k, Vectors: vectors, Tol: lo.Tol, Seed: lo.Seed, MaxIterations: lo.MaxIterations, Basis: lo.Basis})
+	return out, nil
+}
+
+// lowestInto runs Lanczos on op, fills out and returns the lowest vector
+// when vectors.
+func lowestInto[T lanczos.Scalar](ctx context.Context, op lanczos.Operator[T], k int, vectors bool, lo LanczosOptions, out *sectorResult) ([]T, error) {
+	r, err := lanczos.Lowest(ctx, op, lanczos.Options[T]{K: k, Vectors: vectors, Tol: lo.Tol, Seed: lo.Seed, MaxIterations: lo.MaxIterations, Basis: lo.Basis})
 	if err != nil {
 		return nil, err
 	}
 	out.values, out.residuals, out.converged, out.matvecs, out.warnings = r.Values, r.Residuals, r.Converged, r.Matvecs, r.Warnings
 	if vectors && len(r.Vectors) > 0 {
-		out.vecC = r.Vectors[0]
+		return r.Vectors[0], nil
 	}
-	return out, nil
+	return nil, nil
 }
 
 // spectrumKrylov is the Lanczos route of Spectrum.
