@@ -131,6 +131,9 @@ type GroundState struct {
 	// Sz[i] = <S_i^z>; SzSz and SpinSpin are N x N, row-major:
 	// <S_i^z S_j^z> and <S_i . S_j> (the diagonal is S_i (S_i + 1)).
 	Sz, SzSz, SpinSpin []float64
+	// Spin is N x 3, row-major: the local spin <S_i> = (<S_i^x>, <S_i^y>,
+	// <S_i^z>) in the lab frame (hbar = 1; the moment is g_i^T <S_i> mu_B).
+	Spin []float64
 }
 
 // SpectrumResult: Energies ascending with multiplicity (K); Levels grouped.

@@ -479,7 +479,7 @@ func spectrumKrylov(ctx context.Context, m *cluster.Model, req SpectrumRequest, 
 	}
 	rep.Warnings = append(rep.Warnings, fmt.Sprintf("the lowest %d eigenvalues from Lanczos, %d per sector (of %d states in all): a level degenerate within one sector may appear fewer times than its degeneracy", k, kp.k, st.sys.total))
 	if req.Correlations && ground != nil {
-		gs, err := groundStateOf(ctx, m, ground, groundE, groundLabel)
+		gs, err := groundStateOf(ctx, m, ground, groundE, groundLabel, st.axis)
 		if gs != nil {
 			gs.Axis = st.axis
 		}
@@ -504,7 +504,7 @@ func spectrumKrylov(ctx context.Context, m *cluster.Model, req SpectrumRequest, 
 }
 
 // groundStateOf computes the correlations of the ground state found.
-func groundStateOf(ctx context.Context, m *cluster.Model, r *sectorResult, e float64, label string) (*GroundState, error) {
+func groundStateOf(ctx context.Context, m *cluster.Model, r *sectorResult, e float64, label string, axis [3]float64) (*GroundState, error) {
 	var c *hilbert.Correlations
 	var err error
 	switch {
@@ -518,9 +518,21 @@ func groundStateOf(ctx context.Context, m *cluster.Model, r *sectorResult, e flo
 	if err != nil {
 		return nil, err
 	}
-	gs := &GroundState{Energy: e, Sector: label, Sz: c.Sz, SzSz: c.SzSz, SpinSpin: c.SS}
+	gs := &GroundState{Energy: e, Sector: label, Sz: c.Sz, SzSz: c.SzSz, SpinSpin: c.SS, Spin: make([]float64, 3*c.N)}
 	for _, s := range m.Sites {
 		gs.Sites = append(gs.Sites, s.Label)
+	}
+	// In an S^z sector <S_i> lies along the quantization axis; without S^z
+	// conservation the working frame is the lab frame (the engine turns the
+	// frame only where S^z is conserved) and <S_i^x>, <S_i^y> are computed.
+	for i := 0; i < c.N; i++ {
+		if r.sector.TwoSz() == hilbert.NoSz {
+			gs.Spin[3*i], gs.Spin[3*i+1], gs.Spin[3*i+2] = c.Sx[i], c.Sy[i], c.Sz[i]
+			continue
+		}
+		for k := 0; k < 3; k++ {
+			gs.Spin[3*i+k] = c.Sz[i] * axis[k]
+		}
 	}
 	return gs, nil
 }

@@ -211,7 +211,7 @@ func SpectrumResultToProto(name string, r *ed.SpectrumResult) *frustumv1.Spectru
 	}
 	if g := r.GroundState; g != nil {
 		out.GroundState = &frustumv1.GroundState{Energy: g.Energy, Sector: g.Sector, Sites: slices.Clone(g.Sites),
-			Axis: vectorToProto(g.Axis), Sz: slices.Clone(g.Sz), SzSz: slices.Clone(g.SzSz), SpinSpin: slices.Clone(g.SpinSpin)}
+			Axis: vectorToProto(g.Axis), Sz: slices.Clone(g.Sz), SzSz: slices.Clone(g.SzSz), SpinSpin: slices.Clone(g.SpinSpin), Spin: slices.Clone(g.Spin)}
 	}
 	return out
 }
@@ -240,7 +240,7 @@ func SpectrumResultFromProto(p *frustumv1.SpectrumResult) (string, *ed.SpectrumR
 			return "", nil, err
 		}
 		out.GroundState = &ed.GroundState{Energy: g.GetEnergy(), Sector: g.GetSector(), Sites: slices.Clone(g.GetSites()),
-			Axis: axis, Sz: slices.Clone(g.GetSz()), SzSz: slices.Clone(g.GetSzSz()), SpinSpin: slices.Clone(g.GetSpinSpin())}
+			Axis: axis, Sz: slices.Clone(g.GetSz()), SzSz: slices.Clone(g.GetSzSz()), SpinSpin: slices.Clone(g.GetSpinSpin()), Spin: slices.Clone(g.GetSpin())}
 	}
 	return p.GetClusterName(), out, nil
 }

@@ -76,8 +76,8 @@ sectors: total S^z, the one-dimensional representations of an abelian group
 of the cluster's symmetries (its declared ones, or the automorphisms found
 when it declares none) and spin inversion at S^z = 0. The Lanczos route
 reports the residual ||H y - E y|| of every level, and says which sectors
-and symmetries it used; --correlations adds the ground state's <S_i^z> and
-<S_i . S_j>.`,
+and symmetries it used; --correlations adds the ground state's local
+spins <S_i> and its correlations <S_i . S_j>.`,
 	example: `frustum spectrum --cluster testdata/dimer.json
 frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 --json`,
 	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {
@@ -95,7 +95,7 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 		fs.funcFlag("field", "magnetic field `Bx,By,Bz` in T (default 0,0,0)", vectorFlag("field", &field, &given, false))
 		fs.funcFlag("levels", "print the lowest `K` energies only (default 0: all)", levelsFlag(&levels))
 		fs.stringFlag(&method, "method", "`METHOD`: auto (default), full or lanczos")
-		fs.boolFlag(&corr, "correlations", "also the ground state's <S_i^z> and <S_i . S_j> (Lanczos)")
+		fs.boolFlag(&corr, "correlations", "also the ground state's <S_i> and <S_i . S_j> (Lanczos)")
 		fs.funcFlag("tol", "Lanczos residual tolerance `TOL`, relative to max(1, |E|) (default 1e-10)", func(s string) error {
 			v, err := strconv.ParseFloat(s, 64)
 			if err != nil || !(v > 0) || math.IsInf(v, 0) {

@@ -185,14 +185,38 @@ func levelResiduals(r *frustumv1.SpectrumResult) []float64 {
 func groundStateTable(w io.Writer, g *frustumv1.GroundState) error {
 	n := len(g.GetSites())
 	fmt.Fprintf(w, "\nGround state at E = %s K (sector %s); S^z along %s\n\n", fixed(g.GetEnergy(), 6), g.GetSector(), vector(g.GetAxis()))
-	t := &table{header: []string{"site", "label", "<S^z>", "<S_1 . S_j>", "<S_1^z S_j^z>"}}
+	// Without S^z conservation the local spins have parts across the axis:
+	// then show the lab-frame vector.
+	spin, axis := g.GetSpin(), g.GetAxis()
+	transverse := false
+	for i := 0; 3*i+2 < len(spin) && len(axis) == 3; i++ {
+		for k := 0; k < 3; k++ {
+			if math.Abs(spin[3*i+k]-at(g.GetSz(), i)*axis[k]) > 1e-12 {
+				transverse = true
+			}
+		}
+	}
+	header := []string{"site", "label", "<S^z>", "<S_1 . S_j>", "<S_1^z S_j^z>"}
+	if transverse {
+		header = []string{"site", "label", "<S^x>", "<S^y>", "<S^z>", "<S_1 . S_j>", "<S_1^z S_j^z>"}
+	}
+	t := &table{header: header}
 	for j := 0; j < n; j++ {
-		t.add(strconv.Itoa(j+1), g.GetSites()[j], fixed(at(g.GetSz(), j), 6), fixed(at(g.GetSpinSpin(), j), 6), fixed(at(g.GetSzSz(), j), 6))
+		row := []string{strconv.Itoa(j + 1), g.GetSites()[j]}
+		if transverse {
+			row = append(row, fixed(at(spin, 3*j), 6), fixed(at(spin, 3*j+1), 6), fixed(at(spin, 3*j+2), 6))
+		} else {
+			row = append(row, fixed(at(g.GetSz(), j), 6))
+		}
+		t.add(append(row, fixed(at(g.GetSpinSpin(), j), 6), fixed(at(g.GetSzSz(), j), 6))...)
 	}
 	if err := t.write(w); err != nil {
 		return err
 	}
-	fmt.Fprintln(w, "  Every pair <S_i . S_j> is in the --json output (groundState.spinSpin, N x N).")
+	if transverse {
+		fmt.Fprintln(w, "  <S^x>, <S^y>, <S^z>: the local spin in the lab frame (S^z is not conserved here).")
+	}
+	fmt.Fprintln(w, "  Every pair <S_i . S_j> is in the --json output (groundState.spinSpin, N x N), every <S_i> in groundState.spin (N x 3).")
 	return nil
 }
 

@@ -14,6 +14,10 @@ type Correlations struct {
 	Sz   []float64 // <S_i^z>
 	SzSz []float64 // N*N, <S_i^z S_j^z> (i*N + j)
 	SS   []float64 // N*N, <S_i . S_j>; the diagonal is S_i(S_i + 1)
+	// Sx, Sy are <S_i^x> and <S_i^y> (from <S_i^+> = <S_i^x> + i <S_i^y>)
+	// in a sector without S^z conservation (NoSz); in an S^z sector they
+	// vanish exactly and are all zero.
+	Sx, Sy []float64
 }
 
 // Correlations returns <S_i^z>, <S_i^z S_j^z> and <S_i . S_j> of the
@@ -35,8 +39,13 @@ type Correlations struct {
 // symmetry, so these are its correlations; for a degenerate ground state
 // they are those of the chosen sector's vector.
 //
+// In a NoSz sector, <S_i^+> is the same group average of Phi for O = S_i^+,
+// where an element with spin inversion (m -> -m on every site, which maps
+// S^+ onto S^-) takes Phi of S^-.
+//
 // The work is one representative search per pair of sites on which S^+ S^-
-// acts, per basis state: about Dim N^2/4 |G| table lookups for spins 1/2.
+// acts, per basis state: about Dim N^2/4 |G| table lookups for spins 1/2
+// (and 2 N more per state in a NoSz sector).
 func (s *Sector) Correlations(ctx context.Context, psi []complex128) (*Correlations, error) {
 	return correlations(ctx, s, psi)
 }
@@ -72,7 +81,10 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 		q    []float64    // n: sum |c|^2 m_a^2
 		W    []float64    // n*n (a < b): sum |c|^2 m_a m_b
 		phi  []complex128 // n*n (a < b): xy part
+		up   []complex128 // n: S_a^+ (NoSz only)
+		down []complex128 // n: S_a^-
 	}
+	local := s.twoSz == NoSz
 	parts := make([]part, nch)
 	chi := make([]complex128, G)
 	for e := range chi {
@@ -80,6 +92,9 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 	}
 	err := parallelDo(ctx, nch, s.workers, func(_, b int) {
 		p := part{w: make([]float64, n), q: make([]float64, n), W: make([]float64, n*n), phi: make([]complex128, n*n)}
+		if local {
+			p.up, p.down = make([]complex128, n), make([]complex128, n)
+		}
 		k := make([]int, n)
 		m := make([]float64, n)
 		for r := b * chunk; r < min(dim, (b+1)*chunk); r++ {
@@ -107,6 +122,29 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 				}
 			}
 			fr := 1 / math.Sqrt(float64(s.stab[r]))
+			for a := 0; local && a < n; a++ {
+				for oi, op := range [2]int8{Raise, Lower} {
+					la, da, ok := sp.localAmp(a, op, k[a])
+					if !ok {
+						continue
+					}
+					y := x + uint64(int64(da)*int64(sp.stride[a]))
+					e := 0
+					if G > 1 {
+						y, e = s.act.representative(y)
+					}
+					j := s.Index(y)
+					if j < 0 {
+						continue
+					}
+					v := c * complex(la*math.Sqrt(float64(s.stab[j]))*fr, 0) * cmplx.Conj(toComplex(psi[j])*chi[e])
+					if oi == 0 {
+						p.up[a] += v
+					} else {
+						p.down[a] += v
+					}
+				}
+			}
 			for a := 0; a < n; a++ {
 				for bb := a + 1; bb < n; bb++ {
 					// (S_a^+ S_b^- + S_a^- S_b^+)/2
@@ -144,11 +182,17 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 	q := make([]float64, n)
 	W := make([]float64, n*n)
 	phi := make([]complex128, n*n)
+	up := make([]complex128, n)
+	down := make([]complex128, n)
 	for _, p := range parts {
 		if p.w == nil {
 			continue
 		}
 		norm += p.norm
+		for i := range p.up {
+			up[i] += p.up[i]
+			down[i] += p.down[i]
+		}
 		for i := range w {
 			w[i] += p.w[i]
 			q[i] += p.q[i]
@@ -173,15 +217,20 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 		}
 		return M[a*n+b]
 	}
-	out := &Correlations{N: n, Sz: make([]float64, n), SzSz: make([]float64, n*n), SS: make([]float64, n*n)}
+	out := &Correlations{N: n, Sz: make([]float64, n), SzSz: make([]float64, n*n), SS: make([]float64, n*n),
+		Sx: make([]float64, n), Sy: make([]float64, n)}
+	splus := make([]complex128, n)
 	for e, x := range s.grp.elems {
 		inv := s.grp.inverse[e]
 		sg := 1.0
+		ladder := up
 		if x.flip {
 			sg = -1
+			ladder = down
 		}
 		for i := 0; i < n; i++ {
 			out.Sz[i] += sg * w[inv[i]]
+			splus[i] += ladder[inv[i]]
 			out.SzSz[i*n+i] += q[inv[i]]
 			for j := 0; j < n; j++ {
 				if i == j {
@@ -196,6 +245,7 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 	f := 1 / (float64(G) * norm)
 	for i := 0; i < n; i++ {
 		out.Sz[i] *= f
+		out.Sx[i], out.Sy[i] = real(splus[i])*f, imag(splus[i])*f
 		out.SzSz[i*n+i] *= f
 		S := float64(sp.twoS[i]) / 2
 		for j := 0; j < n; j++ {

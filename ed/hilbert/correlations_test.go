@@ -10,15 +10,17 @@ import (
 	"frustum/ed/hilbert"
 )
 
-// fullCorrelations returns <v|S_i.S_j|v>/<v|v> and <v|S_i^z|v>/<v|v> of a
-// full-space vector, from the Cartesian spin matrices.
-func fullCorrelations(m *model, v []complex128) (ss [][]float64, sz []float64) {
+// fullCorrelations returns <v|S_i.S_j|v>/<v|v> and <v|S_i^mu|v>/<v|v>
+// (mu = x, y, z) of a full-space vector, from the Cartesian spin matrices.
+func fullCorrelations(m *model, v []complex128) (ss [][]float64, s1 [3][]float64) {
 	n := len(m.twoS)
 	D, st := m.strides()
 	mats := m.spinMats()
 	nrm := real(dot(v, v))
 	ss = make([][]float64, n)
-	sz = make([]float64, n)
+	for mu := range s1 {
+		s1[mu] = make([]float64, n)
+	}
 	for i := range ss {
 		ss[i] = make([]float64, n)
 	}
@@ -28,7 +30,13 @@ func fullCorrelations(m *model, v []complex128) (ss [][]float64, sz []float64) {
 		}
 		k := m.digits(x)
 		for i := 0; i < n; i++ {
-			sz[i] += real(cmplx.Conj(v[x])*v[x]*mats[i][2][k[i]][k[i]]) / nrm
+			for mu := 0; mu < 3; mu++ {
+				for a := 0; a <= m.twoS[i]; a++ {
+					if amp := mats[i][mu][a][k[i]]; amp != 0 {
+						s1[mu][i] += real(cmplx.Conj(v[x+(a-k[i])*st[i]])*amp*v[x]) / nrm
+					}
+				}
+			}
 			for j := 0; j < n; j++ {
 				var s complex128
 				for mu := 0; mu < 3; mu++ {
@@ -53,15 +61,17 @@ func fullCorrelations(m *model, v []complex128) (ss [][]float64, sz []float64) {
 			}
 		}
 	}
-	return ss, sz
+	return ss, s1
 }
 
 // Source: the direct evaluation on the full space (derivation): a seeded
 // random vector of a sector, expanded to the full space from the
-// definition of the basis, has <S_i.S_j> and <S_i^z> computed there from
+// definition of the basis, has <S_i.S_j> and <S_i> computed there from
 // the Cartesian spin matrices; Correlations, which works on
 // representatives with the group average, must agree to 1e-12. The vector
 // need not be an eigenvector: every vector of the sector transforms by chi.
+// In the sectors without S^z conservation (NoSz) a random vector has
+// nonzero <S_i^x> and <S_i^y>; in S^z sectors they vanish.
 func TestCorrelationsAgainstFullSpace(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 9))
 	for _, c := range []sectorCase{
@@ -70,6 +80,9 @@ func TestCorrelationsAgainstFullSpace(t *testing.T) {
 		{"mixed chain 8 k=1/4 Sz=1", mixedChain(4, 1, 0.3, 0), []hilbert.Generator{{Perm: translation(8, 2)}}, false, 2, "k=1/4"},
 		{"DM ring 9 k=2 Sz=1/2", dmRing(9, 1, 0.3), []hilbert.Generator{{Perm: translation(9, 1)}}, false, 1, "k=2/9"},
 		{"no symmetry, spin 1 and 3/2", &model{twoS: []int{2, 3, 2, 1}, bonds: []bond{{0, 1, heis(1, 1)}, {1, 2, heis(1, 1)}, {2, 3, heis(0.5, 1)}}}, nil, false, 2, "trivial"},
+		{"ring 8 NoSz k=1 flip -", ring(8, 1, 1, 0.3), []hilbert.Generator{{Perm: translation(8, 1)}}, true, hilbert.NoSz, "k=1/8,flip:-"},
+		{"ring 8 NoSz k=0 flip +", ring(8, 1, 1, 0.3), []hilbert.Generator{{Perm: translation(8, 1)}}, true, hilbert.NoSz, "k=0/8,flip:+"},
+		{"NoSz no symmetry, spin 1 and 3/2", &model{twoS: []int{2, 3, 2, 1}, bonds: []bond{{0, 1, heis(1, 1)}, {1, 2, heis(1, 1)}, {2, 3, heis(0.5, 1)}}}, nil, false, hilbert.NoSz, "trivial"},
 	} {
 		s := c.sector(t, hilbert.SectorOptions{})
 		psi := make([]complex128, s.Dim())
@@ -80,17 +93,24 @@ func TestCorrelationsAgainstFullSpace(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ss, sz := fullCorrelations(c.m, expand(c.m, s, psi))
+		ss, s1 := fullCorrelations(c.m, expand(c.m, s, psi))
 		n := len(c.m.twoS)
+		transverse := 0.0
 		for i := 0; i < n; i++ {
-			if math.Abs(got.Sz[i]-sz[i]) > 1e-12 {
-				t.Fatalf("%s: <S^z_%d> = %v, want %v", c.name, i, got.Sz[i], sz[i])
+			for mu, v := range [3][]float64{got.Sx, got.Sy, got.Sz} {
+				if math.Abs(v[i]-s1[mu][i]) > 1e-12 {
+					t.Fatalf("%s: <S^%c_%d> = %v, want %v", c.name, "xyz"[mu], i, v[i], s1[mu][i])
+				}
 			}
+			transverse += math.Abs(s1[0][i]) + math.Abs(s1[1][i])
 			for j := 0; j < n; j++ {
 				if math.Abs(got.SS[i*n+j]-ss[i][j]) > 1e-12 {
 					t.Fatalf("%s: <S_%d.S_%d> = %v, want %v", c.name, i, j, got.SS[i*n+j], ss[i][j])
 				}
 			}
+		}
+		if (c.sz == hilbert.NoSz) != (transverse > 1e-6) {
+			t.Errorf("%s: sum_i |<S_i^x>| + |<S_i^y>| = %v", c.name, transverse)
 		}
 	}
 }

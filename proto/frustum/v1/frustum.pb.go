@@ -1223,7 +1223,12 @@ type GroundState struct {
 	// sz_sz: <S_i^z S_j^z>, N x N, row-major.
 	SzSz []float64 `protobuf:"fixed64,6,rep,packed,name=sz_sz,json=szSz,proto3" json:"sz_sz,omitempty"`
 	// spin_spin: <S_i . S_j>, N x N, row-major; the diagonal is S_i (S_i + 1).
-	SpinSpin      []float64 `protobuf:"fixed64,7,rep,packed,name=spin_spin,json=spinSpin,proto3" json:"spin_spin,omitempty"`
+	SpinSpin []float64 `protobuf:"fixed64,7,rep,packed,name=spin_spin,json=spinSpin,proto3" json:"spin_spin,omitempty"`
+	// spin: the local spin <S_i> in the lab frame, N x 3 row-major (x, y, z
+	// per site; hbar = 1). In an S^z sector it lies along axis; without S^z
+	// conservation (DM or g tensors with a transverse field) its transverse
+	// components are computed too.
+	Spin          []float64 `protobuf:"fixed64,8,rep,packed,name=spin,proto3" json:"spin,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1303,6 +1308,13 @@ func (x *GroundState) GetSzSz() []float64 {
 func (x *GroundState) GetSpinSpin() []float64 {
 	if x != nil {
 		return x.SpinSpin
+	}
+	return nil
+}
+
+func (x *GroundState) GetSpin() []float64 {
+	if x != nil {
+		return x.Spin
 	}
 	return nil
 }
@@ -2832,7 +2844,7 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\ftotal_states\x18\x06 \x01(\x03R\vtotalStates\x120\n" +
 	"\x06engine\x18\a \x01(\v2\x18.frustum.v1.EngineReportR\x06engine\x12\x1c\n" +
 	"\tresiduals\x18\b \x03(\x01R\tresiduals\x12:\n" +
-	"\fground_state\x18\t \x01(\v2\x17.frustum.v1.GroundStateR\vgroundState\"\xa9\x01\n" +
+	"\fground_state\x18\t \x01(\v2\x17.frustum.v1.GroundStateR\vgroundState\"\xbd\x01\n" +
 	"\vGroundState\x12\x16\n" +
 	"\x06energy\x18\x01 \x01(\x01R\x06energy\x12\x16\n" +
 	"\x06sector\x18\x02 \x01(\tR\x06sector\x12\x14\n" +
@@ -2840,7 +2852,8 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x04axis\x18\x04 \x03(\x01R\x04axis\x12\x0e\n" +
 	"\x02sz\x18\x05 \x03(\x01R\x02sz\x12\x13\n" +
 	"\x05sz_sz\x18\x06 \x03(\x01R\x04szSz\x12\x1b\n" +
-	"\tspin_spin\x18\a \x03(\x01R\bspinSpin\"\xd7\x04\n" +
+	"\tspin_spin\x18\a \x03(\x01R\bspinSpin\x12\x12\n" +
+	"\x04spin\x18\b \x03(\x01R\x04spin\"\xd7\x04\n" +
 	"\fThermoResult\x12!\n" +
 	"\fcluster_name\x18\x01 \x01(\tR\vclusterName\x12\x14\n" +
 	"\x05field\x18\x02 \x03(\x01R\x05field\x12 \n" +
