@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math/big"
 	"slices"
+	"strconv"
+	"strings"
 )
 
 // Permutation is a map of the site indices 0..n-1 onto themselves: site i
@@ -134,6 +136,38 @@ func (p Permutation) Order() int {
 		order = order / gcd(order, length) * length
 	}
 	return order
+}
+
+// Cycles writes p in cycle notation, fixed points left out, each site by
+// its label (labels[i]; the index i when labels is shorter): "(a b c)(d e)"
+// maps a to b, b to c, c to a and swaps d and e. The identity is "()".
+func (p Permutation) Cycles(labels []string) string {
+	name := func(i int) string {
+		if i < len(labels) {
+			return labels[i]
+		}
+		return strconv.Itoa(i)
+	}
+	var b strings.Builder
+	seen := make([]bool, len(p))
+	for start := range p {
+		if seen[start] || p[start] == start {
+			continue
+		}
+		b.WriteByte('(')
+		for x := start; !seen[x]; x = p[x] {
+			seen[x] = true
+			if x != start {
+				b.WriteByte(' ')
+			}
+			b.WriteString(name(x))
+		}
+		b.WriteByte(')')
+	}
+	if b.Len() == 0 {
+		return "()"
+	}
+	return b.String()
 }
 
 // Commutes reports whether p q = q p.

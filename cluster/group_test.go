@@ -132,3 +132,21 @@ func TestClosure(t *testing.T) {
 		t.Error("a non-bijection accepted as a generator")
 	}
 }
+
+// Cycle notation (common practice, no source): each cycle lists a site and
+// its successive images; fixed points are left out.
+func TestPermutationCycles(t *testing.T) {
+	for _, c := range []struct {
+		p      Permutation
+		labels []string
+		want   string
+	}{
+		{Permutation{1, 2, 0, 4, 3, 5}, []string{"a", "b", "c", "d", "e", "f"}, "(a b c)(d e)"},
+		{Permutation{0, 1, 2}, nil, "()"},
+		{Permutation{2, 1, 0}, []string{"x"}, "(x 2)"},
+	} {
+		if got := c.p.Cycles(c.labels); got != c.want {
+			t.Errorf("%v: %q, want %q", c.p, got, c.want)
+		}
+	}
+}

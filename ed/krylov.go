@@ -79,9 +79,27 @@ func newSymmetryGroups(m *cluster.Model, sys *spinSystem, inversion bool, useSpa
 		if err == nil {
 			abelian, aerr := cluster.AbelianGenerators(m, group)
 			if aerr == nil {
+				// A generator that is not a declared symmetry gets the
+				// name P1, P2, ... and its cycles in the report.
+				declared := map[string]bool{}
+				for _, s := range m.Symmetries {
+					declared[s.Name] = true
+				}
+				var labels []string
+				for _, s := range m.Sites {
+					labels = append(labels, s.Label)
+				}
+				k := 0
 				for _, g := range abelian {
+					about := fmt.Sprintf("%s (order %d)", g.Name, g.RelativeOrder)
+					if !declared[g.Name] || g.Name == "" {
+						for k++; declared[fmt.Sprintf("P%d", k)]; k++ {
+						}
+						g.Name = fmt.Sprintf("P%d", k)
+						about = fmt.Sprintf("%s = %s (order %d)", g.Name, cluster.Permutation(g.Perm).Cycles(labels), g.RelativeOrder)
+					}
 					gens = append(gens, hilbert.Generator{Name: g.Name, Perm: g.Perm})
-					names = append(names, fmt.Sprintf("%s (order %d)", g.Name, g.RelativeOrder))
+					names = append(names, about)
 				}
 			}
 		}
