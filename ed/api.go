@@ -97,6 +97,11 @@ type LanczosOptions struct {
 	Seed          uint64
 	MaxIterations int
 	Basis         int
+	// Multiplicities completes the multiplicities of levels degenerate
+	// within one sector (at the cost of at least one more convergence run
+	// per sector); without it such a level may appear fewer times than its
+	// degeneracy, and the result warns.
+	Multiplicities bool
 }
 
 // SpectrumRequest asks for the spectrum at one field.

@@ -328,7 +328,7 @@ func solveSector(ctx context.Context, p *krylovPlan, s krylovSector, opt Options
 // lowestInto runs Lanczos on op, fills out and returns the lowest vector
 // when vectors.
 func lowestInto[T lanczos.Scalar](ctx context.Context, op lanczos.Operator[T], k int, vectors bool, lo LanczosOptions, out *sectorResult) ([]T, error) {
-	r, err := lanczos.Lowest(ctx, op, lanczos.Options[T]{K: k, Vectors: vectors, Tol: lo.Tol, Seed: lo.Seed, MaxIterations: lo.MaxIterations, Basis: lo.Basis})
+	r, err := lanczos.Lowest(ctx, op, lanczos.Options[T]{K: k, Vectors: vectors, Tol: lo.Tol, Seed: lo.Seed, MaxIterations: lo.MaxIterations, Basis: lo.Basis, Multiplicities: lo.Multiplicities})
 	if err != nil {
 		return nil, err
 	}
@@ -495,7 +495,9 @@ func spectrumKrylov(ctx context.Context, m *cluster.Model, req SpectrumRequest, 
 	if len(unconverged) > 0 {
 		rep.Warnings = append(rep.Warnings, fmt.Sprintf("Lanczos did not converge to the residual tolerance in %d sectors (%s): their energies are the best Ritz values found; see residuals", len(unconverged), strings.Join(unconverged, "; ")))
 	}
-	rep.Warnings = append(rep.Warnings, fmt.Sprintf("the lowest %d eigenvalues from Lanczos, %d per sector (of %d states in all): a level degenerate within one sector may appear fewer times than its degeneracy", k, kp.k, st.sys.total))
+	if !req.Lanczos.Multiplicities {
+		rep.Warnings = append(rep.Warnings, fmt.Sprintf("the lowest %d eigenvalues from Lanczos, %d per sector (of %d states in all): a level degenerate within one sector may appear fewer times than its degeneracy (multiplicities completes them)", k, kp.k, st.sys.total))
+	}
 	if req.Correlations && ground != nil {
 		gs, err := groundStateOf(ctx, m, ground, groundE, groundLabel, st.axis)
 		if gs != nil {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"frustum/cluster"
@@ -272,6 +273,38 @@ func TestLanczosGroundStateSpin(t *testing.T) {
 		want := -(e[0] - e[1]) / (2 * delta) / MuBOverKB
 		if math.Abs(M[k]-want) > 1e-6 {
 			t.Errorf("M_%c = %.9f mu_B, Hellmann-Feynman %.9f", "xyz"[k], M[k], want)
+		}
+	}
+}
+
+// Levels degenerate within one sector, with LanczosOptions.Multiplicities:
+// the heptamer (spins 1/2, Heisenberg exchange) without spatial symmetry
+// has an 8-fold ground level (a fourfold S = 1/2, so two states in each
+// S^z = +-1/2 sector); the lowest 8 energies must equal those of full
+// diagonalization (the dense route, an independent construction) with
+// their multiplicities, and the warning about missing copies must go.
+func TestLanczosMultiplicities(t *testing.T) {
+	m := cluster.DefectMultimer(cluster.MultimerParams{})
+	full, err := Spectrum(context.Background(), m, SpectrumRequest{Levels: 8, Method: MethodFull}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Spectrum(context.Background(), m, SpectrumRequest{Levels: 8, Method: MethodLanczos, NoSpatialSymmetry: true,
+		Lanczos: LanczosOptions{Multiplicities: true}}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Energies) != 8 {
+		t.Fatalf("%d energies", len(res.Energies))
+	}
+	for i, e := range full.Energies {
+		if math.Abs(res.Energies[i]-e) > 1e-9 {
+			t.Errorf("E_%d = %.12f, full %.12f", i, res.Energies[i], e)
+		}
+	}
+	for _, w := range res.Report.Warnings {
+		if strings.Contains(w, "fewer times") {
+			t.Errorf("warning kept: %s", w)
 		}
 	}
 }

@@ -47,7 +47,7 @@ func SpectrumRequestFromProto(p *frustumv1.SpectrumParameters) (ed.SpectrumReque
 	}
 	l := p.GetLanczos()
 	return ed.SpectrumRequest{Field: field, Levels: int(p.GetLevels()), Method: ed.Method(p.GetMethod()),
-		Lanczos:      ed.LanczosOptions{Tol: l.GetTolerance(), Seed: l.GetSeed(), MaxIterations: int(l.GetMaxIterations()), Basis: int(l.GetBasis())},
+		Lanczos:      ed.LanczosOptions{Tol: l.GetTolerance(), Seed: l.GetSeed(), MaxIterations: int(l.GetMaxIterations()), Basis: int(l.GetBasis()), Multiplicities: l.GetMultiplicities()},
 		Correlations: p.GetCorrelations(), NoSpatialSymmetry: p.GetNoSpatialSymmetry(), Sectors: slices.Clone(p.GetSectors())}, nil
 }
 
@@ -57,7 +57,7 @@ func SpectrumParametersToProto(r ed.SpectrumRequest) *frustumv1.SpectrumParamete
 		Correlations: r.Correlations, NoSpatialSymmetry: r.NoSpatialSymmetry, Sectors: slices.Clone(r.Sectors)}
 	if r.Lanczos != (ed.LanczosOptions{}) {
 		p.Lanczos = &frustumv1.LanczosParameters{Tolerance: r.Lanczos.Tol, Seed: r.Lanczos.Seed,
-			MaxIterations: int32(r.Lanczos.MaxIterations), Basis: int32(r.Lanczos.Basis)}
+			MaxIterations: int32(r.Lanczos.MaxIterations), Basis: int32(r.Lanczos.Basis), Multiplicities: r.Lanczos.Multiplicities}
 	}
 	return p
 }

@@ -63,7 +63,7 @@ func findTask(name string) *task {
 
 var spectrumTask = &task{
 	name:     "spectrum",
-	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K] [--method auto|full|lanczos] [--correlations] [--tol TOL] [--seed N] [--sector SEL ...] [--no-spatial-symmetry]",
+	synopsis: "--cluster FILE [--field Bx,By,Bz] [--levels K] [--method auto|full|lanczos] [--correlations] [--tol TOL] [--seed N] [--multiplicities] [--sector SEL ...] [--no-spatial-symmetry]",
 	about: `Prints the energy levels of the cluster at one field: each level's energy (K),
 its energy above the ground state, its degeneracy, and its total S^z and total
 spin S where those are good quantum numbers. --csv prints one row per level;
@@ -112,6 +112,7 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 			lp.Seed = v
 			return nil
 		})
+		fs.boolFlag(&lp.Multiplicities, "multiplicities", "complete the multiplicities of levels degenerate within one Lanczos sector (slower)")
 		fs.boolFlag(&noSym, "no-spatial-symmetry", "Lanczos in S^z sectors only, without the cluster's symmetries")
 		var sectors []string
 		fs.funcFlag("sector", "solve only the Lanczos sectors whose labels contain every component of `SEL`, such as 'Sz=0' or 'Sz=0, T1:k=15/30' (repeat for several)", func(s string) error {
@@ -129,7 +130,7 @@ frustum spectrum --cluster testdata/triangle-dm.json --field 0,0,10 --levels 4 -
 				return nil, err
 			}
 			p := &frustumv1.SpectrumParameters{Field: field[:], Levels: int32(levels), Method: method, Correlations: corr, NoSpatialSymmetry: noSym, Sectors: sectors}
-			if lp.Tolerance != 0 || lp.Seed != 0 {
+			if lp.Tolerance != 0 || lp.Seed != 0 || lp.Multiplicities {
 				p.Lanczos = &lp
 			}
 			return &frustumv1.JobSpec{Cluster: c, Task: &frustumv1.JobSpec_Spectrum{Spectrum: p}}, nil

@@ -466,9 +466,13 @@ type LanczosParameters struct {
 	// 1000 when 0.
 	MaxIterations int32 `protobuf:"varint,3,opt,name=max_iterations,json=maxIterations,proto3" json:"max_iterations,omitempty"`
 	// basis: the Krylov vectors kept; max(2K + 20, 40) when 0.
-	Basis         int32 `protobuf:"varint,4,opt,name=basis,proto3" json:"basis,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Basis int32 `protobuf:"varint,4,opt,name=basis,proto3" json:"basis,omitempty"`
+	// multiplicities: complete the multiplicities of levels degenerate within
+	// one sector (at least one more convergence run per sector); without it
+	// such a level may appear fewer times, and the result warns.
+	Multiplicities bool `protobuf:"varint,5,opt,name=multiplicities,proto3" json:"multiplicities,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *LanczosParameters) Reset() {
@@ -527,6 +531,13 @@ func (x *LanczosParameters) GetBasis() int32 {
 		return x.Basis
 	}
 	return 0
+}
+
+func (x *LanczosParameters) GetMultiplicities() bool {
+	if x != nil {
+		return x.Multiplicities
+	}
+	return false
 }
 
 // ThermoParameters are the parameters of `frustum thermo`.
@@ -2780,12 +2791,13 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\alanczos\x18\x04 \x01(\v2\x1d.frustum.v1.LanczosParametersR\alanczos\x12\"\n" +
 	"\fcorrelations\x18\x05 \x01(\bR\fcorrelations\x12.\n" +
 	"\x13no_spatial_symmetry\x18\x06 \x01(\bR\x11noSpatialSymmetry\x12\x18\n" +
-	"\asectors\x18\a \x03(\tR\asectors\"\x82\x01\n" +
+	"\asectors\x18\a \x03(\tR\asectors\"\xaa\x01\n" +
 	"\x11LanczosParameters\x12\x1c\n" +
 	"\ttolerance\x18\x01 \x01(\x01R\ttolerance\x12\x12\n" +
 	"\x04seed\x18\x02 \x01(\x04R\x04seed\x12%\n" +
 	"\x0emax_iterations\x18\x03 \x01(\x05R\rmaxIterations\x12\x14\n" +
-	"\x05basis\x18\x04 \x01(\x05R\x05basis\"\xc4\x01\n" +
+	"\x05basis\x18\x04 \x01(\x05R\x05basis\x12&\n" +
+	"\x0emultiplicities\x18\x05 \x01(\bR\x0emultiplicities\"\xc4\x01\n" +
 	"\x10ThermoParameters\x12\"\n" +
 	"\ftemperatures\x18\x01 \x03(\x01R\ftemperatures\x12\x14\n" +
 	"\x05field\x18\x02 \x03(\x01R\x05field\x12\x16\n" +
