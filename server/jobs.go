@@ -262,6 +262,13 @@ func (s *Server) CreateJob(ctx context.Context, req *frustumv1.CreateJobRequest)
 	if err != nil {
 		return nil, s.storeError("create", err)
 	}
+	if !created && stored.GetSpecHash() != "" && stored.GetSpecHash() != hash {
+		// A retry carries the same spec; another spec under the same id is
+		// a client error, and answering with the first job would hide it.
+		msg := fmt.Sprintf("request_id %q already names %s, created with a different spec; use a new request_id for a new job", req.GetRequestId(), stored.GetName())
+		return nil, statusError(codes.AlreadyExists, "REQUEST_ID_REUSED", msg, map[string]string{"job": stored.GetName()},
+			&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: "request_id", Description: msg}}})
+	}
 	if created {
 		if stored.GetState() == frustumv1.Job_QUEUED {
 			s.sched.enqueue(queued{name: stored.GetName(), owner: user, mem: plan.GetMemoryBytes()})

@@ -169,6 +169,12 @@ func TestRequestIDAndCache(t *testing.T) {
 	if err != nil || again.GetName() != first.GetName() || again.GetState() != frustumv1.Job_SUCCEEDED {
 		t.Errorf("retry after the end: %v, %v", again, err)
 	}
+	// The same request id with another spec is refused, naming the field.
+	_, err = ts.client.CreateJob(ctx, &frustumv1.CreateJobRequest{Spec: thermoSpec(8), RequestId: "retry-1"})
+	wantCode(t, "reused request_id", err, codes.AlreadyExists)
+	if p := fieldPaths(err); !slices.Equal(p, []string{"request_id"}) {
+		t.Errorf("reused request_id names %q", p)
+	}
 	done, err := ts.client.GetJob(ctx, &frustumv1.GetJobRequest{Name: first.GetName()})
 	if err != nil {
 		t.Fatal(err)

@@ -154,6 +154,13 @@ class FailedPrecondition(FrustumError):
     default_code = "FAILED_PRECONDITION"
 
 
+class AlreadyExists(FrustumError):
+    """A request_id reused with a different spec (reason REQUEST_ID_REUSED;
+    metadata["job"] names the job it already belongs to)."""
+
+    default_code = "ALREADY_EXISTS"
+
+
 class Cancelled(FrustumError):
     """A call that was cancelled, or a job that ended CANCELLED."""
 
@@ -186,6 +193,7 @@ _BY_CODE = {
     "PERMISSION_DENIED": PermissionDenied,
     "UNAUTHENTICATED": Unauthenticated,
     "FAILED_PRECONDITION": FailedPrecondition,
+    "ALREADY_EXISTS": AlreadyExists,
     "CANCELLED": Cancelled,
     "UNAVAILABLE": Unavailable,
     "DEADLINE_EXCEEDED": DeadlineExceeded,

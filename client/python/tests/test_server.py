@@ -36,6 +36,7 @@ import support
 
 from frustum_client import (
     MU_B_OVER_K_B,
+    AlreadyExists,
     Cancelled,
     Client,
     FailedPrecondition,
@@ -220,6 +221,11 @@ class Tasks(unittest.TestCase):
         self.assertNotEqual(c.name, a.name)
         self.assertTrue(c.from_cache)
         self.assertEqual(c.wait(progress=False).message, first.message)
+        # The same request_id with another spec is refused, naming the field.
+        with self.assertRaises(AlreadyExists) as cm:
+            self.fc.submit("thermo", DIMER, [8.0], request_id="python-client-test-1")
+        self.assertEqual(cm.exception.reason, "REQUEST_ID_REUSED")
+        self.assertEqual([f.field for f in cm.exception.fields], ["request_id"])
 
     def test_delete(self):
         job = self.fc.submit("spectrum", DIMER, levels=1)

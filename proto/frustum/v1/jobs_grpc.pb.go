@@ -42,7 +42,8 @@ const (
 type JobServiceClient interface {
 	// CreateJob stores the job durably (synced to disk) before it returns. A
 	// repeated request_id of the same user returns the first job instead of a
-	// second one. A job that could never fit the server's memory is refused
+	// second one; the same request_id with a different spec is refused with
+	// ALREADY_EXISTS (reason REQUEST_ID_REUSED, field request_id). A job that could never fit the server's memory is refused
 	// with RESOURCE_EXHAUSTED; a bad spec with INVALID_ARGUMENT and field
 	// violations naming the paths (e.g. "spec.cluster.bonds[3].b").
 	CreateJob(ctx context.Context, in *CreateJobRequest, opts ...grpc.CallOption) (*Job, error)
@@ -172,7 +173,8 @@ type JobService_GetJobResultClient = grpc.ServerStreamingClient[ResultChunk]
 type JobServiceServer interface {
 	// CreateJob stores the job durably (synced to disk) before it returns. A
 	// repeated request_id of the same user returns the first job instead of a
-	// second one. A job that could never fit the server's memory is refused
+	// second one; the same request_id with a different spec is refused with
+	// ALREADY_EXISTS (reason REQUEST_ID_REUSED, field request_id). A job that could never fit the server's memory is refused
 	// with RESOURCE_EXHAUSTED; a bad spec with INVALID_ARGUMENT and field
 	// violations naming the paths (e.g. "spec.cluster.bonds[3].b").
 	CreateJob(context.Context, *CreateJobRequest) (*Job, error)

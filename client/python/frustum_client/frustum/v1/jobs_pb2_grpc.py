@@ -62,7 +62,8 @@ class JobServiceServicer(object):
     def CreateJob(self, request, context):
         """CreateJob stores the job durably (synced to disk) before it returns. A
         repeated request_id of the same user returns the first job instead of a
-        second one. A job that could never fit the server's memory is refused
+        second one; the same request_id with a different spec is refused with
+        ALREADY_EXISTS (reason REQUEST_ID_REUSED, field request_id). A job that could never fit the server's memory is refused
         with RESOURCE_EXHAUSTED; a bad spec with INVALID_ARGUMENT and field
         violations naming the paths (e.g. "spec.cluster.bonds[3].b").
         """
