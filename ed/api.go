@@ -201,9 +201,11 @@ type MagnetizationRequest struct {
 	// zero. Negative is refused.
 	Powder int
 	// Method: auto (full diagonalization where it fits, finite-temperature
-	// Lanczos otherwise), full or ftlm. FTLM needs one effective g along
-	// the field (M = g S^z with S^z conserved) and T > 0, and gives no group
-	// moments.
+	// Lanczos otherwise), full or ftlm. FTLM needs T > 0 and gives no group
+	// moments. With one effective g along the field (M = g S^z with S^z
+	// conserved) one set of samples serves every field; otherwise each
+	// field is its own FTLM run (three with Susceptibility), so the cost
+	// grows with the number of fields.
 	Method Method
 	FTLM   FTLMOptions
 	// NoSpatialSymmetry keeps FTLM to S^z sectors.

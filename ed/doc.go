@@ -38,6 +38,13 @@
 // point (MagnetizationRequest.Susceptibility): the sector variance of S^z on
 // the first route, the Kubo sum with its Van Vleck part on the second.
 //
+// Beyond full diagonalization, Spectrum takes the Lanczos route (krylov.go)
+// and Thermo and Magnetization finite-temperature Lanczos (ftlm.go), whose
+// values are statistical estimates with their errors: on the first route
+// one set of samples of the zero-field sectors serves every field, on the
+// second every field is its own run on H(B), with M = <M_n> from the same
+// recurrences and chi by a central difference with common random numbers.
+//
 // # Powder averages
 //
 // MagnetizationRequest.Powder > 0 averages the curves over the directions of

@@ -384,6 +384,9 @@ func planDirection(m *cluster.Model, req MagnetizationRequest, n [3]float64, opt
 		if req.Method == MethodFull {
 			return nil, err
 		}
+		if req.Method == MethodFTLM {
+			err = nil // asked for, not a fallback
+		}
 		return planMagnetizationFTLM(m, req, p, err, opt)
 	}
 	p.rep = w.report(st, mem)

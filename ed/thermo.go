@@ -191,23 +191,7 @@ func planThermo(m *cluster.Model, req ThermoRequest, opt Options) (*taskPlan, er
 	} else if req.Method == MethodFull {
 		return nil, &RequestError{Field: "cluster", Reason: fmt.Sprintf("Hilbert space of %d sites is beyond full diagonalization (more than 2^31 states)", len(m.Sites))}
 	}
-	// Finite-temperature Lanczos: with one effective g the field is a
-	// shift of each S^z sector of H0.
-	inversion := st.flipSymmetric && p.op == st.h0 && st.conserveSz
-	fp, err := planFTLM(m, st, p.op, req.FTLM, inversion, !req.NoSpatialSymmetry, inversion, opt.Limits)
-	if err != nil {
-		return nil, err
-	}
-	fp.moments = p.analytic && st.conserveSz
-	p.ftlm = fp
-	kp := fp.kp
-	p.rep = fp.report(dimension)
-	why := ""
-	if denseErr != nil {
-		why = fmt.Sprintf(" (full diagonalization does not fit: %v)", denseErr)
-	}
-	p.rep.Route = fmt.Sprintf("%s; finite-temperature Lanczos in %d sectors (%s)%s", thermoRoute(st, B), len(kp.sectors), kp.groups.about, why)
-	return p, nil
+	return planThermoFTLM(m, req, p, denseErr, dimension, opt)
 }
 
 // PlanThermo returns what Thermo would do without diagonalizing anything, or

@@ -173,6 +173,19 @@
 // the sector-weighted mean and variance of a sector scalar (for S^z
 // sectors: M and chi), at every temperature, with jackknife errors over the
 // random vectors; see its documentation for the estimator and the blocks.
+//
+// An observable A that need not commute with H (a moment with site-dependent
+// g) is estimated from the same recurrences: SampleObservable forms A r once
+// and accumulates <v_k|A r> in the pass that orthogonalizes each Krylov
+// vector, so that
+//
+//	<r|f(H) A|r> ~ sum_j f(eps_j) <r|psi_j><psi_j|A|r>
+//
+// (Jaklic and Prelovsek's static estimator) costs one vector and one dot
+// product per step more; Thermodynamics then gives <A>(T) (Observable), and
+// ObservableDifference the difference of <A> between two sets of samples
+// that share their random vectors, for example a central difference
+// d<A>/dB with the jackknife error of the difference.
 // Energies are measured from a shift and every sum is formed in logarithmic
 // form, so that no temperature overflows or underflows.
 //
@@ -205,7 +218,8 @@
 // besides and partial sums of the reductions (about 2 Basis floats per
 // chunk of 32 KiB, or Dim/64 floats for the Gram matrices); the Ritz
 // vectors are formed in place or in free slots of the basis, chunk by
-// chunk. A Sampler allocates three vectors. MemoryEstimate gives both
+// chunk. A Sampler allocates three vectors (four with an observable).
+// MemoryEstimate gives both
 // before anything is allocated.
 //
 // # Caveats and limitations
@@ -238,4 +252,12 @@
 //   - Thermodynamics needs at least two samples in every stochastic sector,
 //     and its errors are statistical: with R samples they are themselves
 //     uncertain by about 1/sqrt(2(R-1)).
+//   - The observable estimate is the one-sided <r|f(H) A|r>: far below the
+//     gap each sample still carries the cross terms <r|psi_0><psi_0|A|psi_l>
+//     <psi_l|r> of the ground state with the rest, so its noise there is of
+//     the order of the part of A that does not commute with H, not small
+//     like that of the energy; the jackknife reports it. The symmetric
+//     low-temperature form <r|e^{-H/2T} A e^{-H/2T}|r> (Aichhorn, Daghofer,
+//     Evertz and von der Linden, Phys. Rev. B 67, 161103 (2003)) would need
+//     the Krylov vectors stored and is not implemented.
 package lanczos

@@ -9,8 +9,12 @@ import (
 )
 
 // SampleVectors is the number of vectors of length Dim that a Sampler
-// allocates (the caller's start vector not included).
-const SampleVectors = 3
+// allocates (the caller's start vector not included). SampleObservable
+// needs ObservableVectors more, for A r.
+const (
+	SampleVectors     = 3
+	ObservableVectors = 1
+)
 
 // Ritz is the spectral information that Lanczos from one start vector r
 // gathers: the eigenvalues eps_j of the M x M tridiagonal matrix and the
@@ -21,10 +25,19 @@ const SampleVectors = 3
 //
 // exactly for polynomials f of degree below 2M (Gauss quadrature) and for
 // any f when the Krylov space is invariant. The weights sum to |r|^2.
+//
+// A sample taken with an observable A (SampleObservable) also carries
+//
+//	Observable_j = Re <r|psi_j><psi_j|A|r>,   <r|f(H) A|r> ~ sum_j Observable_j f(eps_j),
+//
+// which sum to <r|A|r>.
 type Ritz struct {
 	Values  []float64 // eps_j, ascending
 	Weights []float64 // w_j
-	Norm    float64   // |r|
+	// Observable holds Re <r|psi_j><psi_j|A|r> for each eps_j; nil for a
+	// sample taken without an observable.
+	Observable []float64
+	Norm       float64 // |r|
 	// Steps is the number of Lanczos steps (operator applications) taken:
 	// the requested number, or fewer when an invariant subspace ended the
 	// recurrence.
@@ -38,6 +51,7 @@ type Ritz struct {
 type Sampler[T Scalar] struct {
 	op         Operator[T]
 	prev, v, w []T
+	ar         []T // A r, allocated by the first SampleObservable
 	ws         workspace
 }
 
@@ -59,6 +73,42 @@ func Sample[T Scalar](ctx context.Context, op Operator[T], r []T, steps int) (*R
 // below 1e-12 times the largest ||H v|| seen (an invariant subspace).
 // The context is checked before every operator application.
 func (s *Sampler[T]) Sample(ctx context.Context, r []T, steps int) (*Ritz, error) {
+	return s.sample(ctx, r, steps, nil)
+}
+
+// SampleObservable is Sample that also estimates <r|f(H) A|r> for the
+// Hermitian operator a (of the same dimension; it need not commute with
+// H), the static estimator of Jaklic and Prelovsek (Phys. Rev. B 49, 5065
+// (1994)):
+//
+//	<r|f(H) A|r> ~ sum_j f(eps_j) <r|psi_j><psi_j|A|r>,
+//	<psi_j|A|r> = sum_k U_kj <v_k|A r>,
+//
+// with v_k the Krylov vectors, U the eigenvectors of the tridiagonal
+// matrix and <r|psi_j> = |r| U_0j. A r is formed once (one application of
+// a, into one more work vector); the overlaps <v_k|A r> are accumulated in
+// the recurrence's own pass over each new vector, so no Krylov vector is
+// stored, and the plane rotations that give U_0j are applied to the row
+// of overlaps as well (O(M^2), no U formed). The estimate is
+// Re sum_k (f(T) e_1)_k |r| <v_k|A r>, the Lanczos approximation
+// |r| V f(T) e_1 of f(H) r projected on A r, which stays accurate when
+// the Krylov vectors lose orthogonality (Druskin, Greenbaum and
+// Knizhnerman, SIAM J. Sci. Comput. 19, 38 (1998)). It is exact for
+// polynomials f of degree below M, and for any f once the Krylov space is
+// invariant; the real part is taken because Tr f(H) A is real, so the
+// imaginary part is pure noise. The result's Observable holds the
+// weights.
+func (s *Sampler[T]) SampleObservable(ctx context.Context, r []T, steps int, a Operator[T]) (*Ritz, error) {
+	if a == nil {
+		return nil, errors.New("lanczos: SampleObservable without an observable")
+	}
+	if a.Dim() != s.op.Dim() {
+		return nil, fmt.Errorf("lanczos: observable dimension %d, operator dimension %d", a.Dim(), s.op.Dim())
+	}
+	return s.sample(ctx, r, steps, a)
+}
+
+func (s *Sampler[T]) sample(ctx context.Context, r []T, steps int, obs Operator[T]) (*Ritz, error) {
 	n := s.op.Dim()
 	if len(r) != n {
 		return nil, fmt.Errorf("lanczos: start vector length %d, dimension %d", len(r), n)
@@ -80,6 +130,28 @@ func (s *Sampler[T]) Sample(ctx context.Context, r []T, steps int) (*Ritz, error
 	beta := make([]float64, 0, steps)
 	var hnorm float64
 	c := make([]T, 2)
+	// overlap[k] = Re <v_k|A r>, and the arguments of the fused pass.
+	var overlap []float64
+	var dots [][]T
+	var d []T
+	if obs != nil {
+		if s.ar == nil {
+			s.ar = make([]T, n)
+		}
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		if err := obs.Apply(ctx, s.ar, r); err != nil {
+			return nil, fmt.Errorf("lanczos: apply the observable: %w", err)
+		}
+		d = make([]T, 1)
+		if an := dotMany(&s.ws, [][]T{s.v}, s.ar, d); math.IsNaN(an) || math.IsInf(an, 0) {
+			return nil, errors.New("lanczos: observable produced a non-finite vector")
+		}
+		overlap = make([]float64, 1, steps)
+		overlap[0] = realPart(d[0])
+		dots = [][]T{s.ar}
+	}
 	for j := range steps {
 		if err := ctx.Err(); err != nil {
 			return nil, err
@@ -102,18 +174,32 @@ func (s *Sampler[T]) Sample(ctx context.Context, r []T, steps int) (*Ritz, error
 		if j > 0 {
 			c[1] = fromReal[T](beta[j-1])
 		}
-		b := math.Sqrt(subtract(&s.ws, [][]T{s.v, s.prev}, c, s.w, nil))
+		var b float64
+		if obs == nil {
+			b = math.Sqrt(subtract(&s.ws, [][]T{s.v, s.prev}, c, s.w, nil))
+		} else {
+			// The same pass gives <A r|w>, w = b v_{j+1}: Re <v_{j+1}|A r>
+			// is its real part over b.
+			b = math.Sqrt(update(&s.ws, [][]T{s.v, s.prev}, c, s.w, dots, d))
+		}
 		if b <= breakdownTol*hnorm {
 			break
 		}
 		beta = append(beta, b)
+		if obs != nil {
+			overlap = append(overlap, realPart(d[0])/b)
+		}
 		scale(s.w, 1/b)
 		s.prev, s.v, s.w = s.v, s.w, s.prev
 	}
 	m := len(alpha)
 	first := make([]float64, m)
 	first[0] = 1
-	if err := tridiagonalQL(alpha, beta[:m-1], first); err != nil {
+	rows := [][]float64{first}
+	if obs != nil {
+		rows = append(rows, overlap[:m])
+	}
+	if err := tridiagonalQL(alpha, beta[:m-1], rows...); err != nil {
 		return nil, err
 	}
 	order := make([]int, m)
@@ -126,6 +212,12 @@ func (s *Sampler[T]) Sample(ctx context.Context, r []T, steps int) (*Ritz, error
 		rz.Values[i] = alpha[o]
 		rz.Weights[i] = nr * nr * first[o] * first[o]
 	}
+	if obs != nil {
+		rz.Observable = make([]float64, m)
+		for i, o := range order {
+			rz.Observable[i] = nr * first[o] * overlap[o]
+		}
+	}
 	return rz, nil
 }
 
@@ -133,12 +225,13 @@ func (s *Sampler[T]) Sample(ctx context.Context, r []T, steps int) (*Ritz, error
 // matrix with diagonal d (length n) and off-diagonal e (length n-1) by the
 // implicitly shifted QL iteration with Wilkinson's shift (Bowdler, Martin,
 // Reinsch and Wilkinson, Numer. Math. 11, 293 (1968)), and applies the same
-// plane rotations to the row vector z from the right. With z = e_1^T on
-// entry, z holds on return the first components of the unit eigenvectors,
-// which is all that Gauss quadrature needs (Golub and Welsch, Math. Comp.
-// 23, 221 (1969)): O(n^2) work instead of O(n^3) for all the vectors. On
+// plane rotations to each row vector z of zs (length n) from the right:
+// z <- z U, U the unit eigenvectors as columns. With z = e_1^T on entry, z
+// holds on return the first components of the unit eigenvectors, which is
+// all that Gauss quadrature needs (Golub and Welsch, Math. Comp. 23, 221
+// (1969)): O(n^2) work per row instead of O(n^3) for all the vectors. On
 // return d holds the eigenvalues (unsorted) and e is destroyed.
-func tridiagonalQL(d, e, z []float64) error {
+func tridiagonalQL(d, e []float64, zs ...[]float64) error {
 	n := len(d)
 	if n <= 1 {
 		return nil
@@ -187,9 +280,11 @@ func tridiagonalQL(d, e, z []float64) error {
 				p = sn * r
 				d[i+1] = g + p
 				g = cs*r - b
-				zi, zi1 := z[i], z[i+1]
-				z[i+1] = sn*zi + cs*zi1
-				z[i] = cs*zi - sn*zi1
+				for _, z := range zs {
+					zi, zi1 := z[i], z[i+1]
+					z[i+1] = sn*zi + cs*zi1
+					z[i] = cs*zi - sn*zi1
+				}
 			}
 			if deflated {
 				continue

@@ -51,6 +51,11 @@ type Thermal struct {
 	// weighted by the sectors' shares of Z. With x = S^z and a moment m per
 	// unit of S^z: M = m <x>, chi = m^2 Var(x) / T.
 	Mean, Variance []Estimate
+	// Observable is <A> = Tr e^{-H/T} A / Z of the operator A whose weights
+	// every sample carries (Ritz.Observable, from SampleObservable or, for
+	// Exact sectors, the diagonal elements <psi_j|A|psi_j>); nil when the
+	// samples carry none.
+	Observable []Estimate
 }
 
 // LowestRitz returns the lowest Ritz value plus offset over all samples.
@@ -74,7 +79,10 @@ func LowestRitz(sectors []SectorSamples) float64 {
 //
 // (plain sums for Exact sectors), so that Z, <H>, <H^2> and the sector
 // shares come from the same samples, and every average is a ratio of such
-// traces. Each sample's contribution is formed in logarithmic form, so
+// traces. Where the samples carry observable weights a_rj (Ritz.Observable;
+// all samples or none), the same sums with a_rj in place of w_rj estimate
+// Tr_s f(H) A, and Observable is <A> = Tr e^{-H/T} A / Z. Each sample's
+// contribution is formed in logarithmic form, so
 // neither overflow nor underflow occurs at any temperature; shift only sets
 // the reference of the energy moments (pass NaN for LowestRitz(sectors)).
 // Temperatures must be positive; +Inf gives the infinite-temperature limit,
@@ -93,10 +101,137 @@ func LowestRitz(sectors []SectorSamples) float64 {
 // ratio. Value is the estimate from all samples. A stochastic sector needs at
 // least two samples.
 func Thermodynamics(sectors []SectorSamples, temps []float64, shift float64) (*Thermal, error) {
+	ts, err := newThermalSet(sectors, temps, shift)
+	if err != nil {
+		return nil, err
+	}
+	out := &Thermal{
+		Temperatures: append([]float64(nil), temps...),
+		Shift:        ts.shift,
+		Blocks:       ts.blocks,
+	}
+	nt := len(temps)
+	fields := []*[]Estimate{&out.LnZ, &out.Energy, &out.SpecificHeat, &out.Entropy, &out.Mean, &out.Variance}
+	if ts.observable {
+		fields = append(fields, &out.Observable)
+	}
+	for _, p := range fields {
+		*p = make([]Estimate, nt)
+	}
+	for ti := range temps {
+		est := jackknife(ts.blocks, func(leave int) []float64 {
+			a := ts.averages(ti, leave)
+			return a[:len(fields)]
+		})
+		for q, f := range fields {
+			(*f)[ti] = est[q]
+		}
+	}
+	return out, nil
+}
+
+// ObservableDifference returns scale (<A>_plus - <A>_minus) at every
+// temperature, with its jackknife error, for two sets of samples that
+// share their random vectors: the same sectors (dimensions, Exact flags
+// and numbers of samples), sample r of a sector in plus started from the
+// same vector as sample r in minus, for example at the fields B + h and
+// B - h (common random numbers). Every sample must carry observable
+// weights. Block b is left out of both sets at once, so the error is that
+// of the difference, in which the noise the two sets share cancels: with
+// scale = 1/(2h) it estimates the derivative d<A>/dB by a central
+// difference without the 1/h growth of the noise that independent samples
+// would give. Each set's shift is its own LowestRitz (it only sets a
+// reference).
+func ObservableDifference(plus, minus []SectorSamples, temps []float64, scale float64) ([]Estimate, error) {
+	if len(plus) != len(minus) {
+		return nil, fmt.Errorf("lanczos: %d and %d sectors: the sets must share their sectors", len(plus), len(minus))
+	}
+	for i := range plus {
+		p, m := plus[i], minus[i]
+		if p.Dimension != m.Dimension || p.Exact != m.Exact || len(p.Samples) != len(m.Samples) {
+			return nil, fmt.Errorf("lanczos: sector %d differs between the sets (dimension %d and %d, %d and %d samples)", i, p.Dimension, m.Dimension, len(p.Samples), len(m.Samples))
+		}
+	}
+	if math.IsNaN(scale) || math.IsInf(scale, 0) {
+		return nil, fmt.Errorf("lanczos: scale %v is not finite", scale)
+	}
+	tp, err := newThermalSet(plus, temps, math.NaN())
+	if err != nil {
+		return nil, err
+	}
+	tm, err := newThermalSet(minus, temps, math.NaN())
+	if err != nil {
+		return nil, err
+	}
+	if !tp.observable || !tm.observable {
+		return nil, errors.New("lanczos: ObservableDifference needs observable weights on every sample")
+	}
+	out := make([]Estimate, len(temps))
+	for ti := range temps {
+		est := jackknife(tp.blocks, func(leave int) []float64 {
+			return []float64{scale * (tp.averages(ti, leave)[6] - tm.averages(ti, leave)[6])}
+		})
+		out[ti] = est[0]
+	}
+	return out, nil
+}
+
+// jackknife returns the estimates avg(-1) with their errors from the
+// leave-one-block-out replicas avg(b), b < blocks (zero errors with fewer
+// than two blocks).
+func jackknife(blocks int, avg func(leave int) []float64) []Estimate {
+	full := avg(-1)
+	out := make([]Estimate, len(full))
+	for q, v := range full {
+		out[q].Value = v
+	}
+	if blocks < 2 {
+		return out
+	}
+	reps := make([][]float64, blocks)
+	mean := make([]float64, len(full))
+	for b := range blocks {
+		reps[b] = avg(b)
+		for q := range mean {
+			mean[q] += reps[b][q] / float64(blocks)
+		}
+	}
+	for q := range out {
+		var ss float64
+		for b := range blocks {
+			d := reps[b][q] - mean[q]
+			ss += d * d
+		}
+		out[q].Error = math.Sqrt(float64(blocks-1) / float64(blocks) * ss)
+	}
+	return out
+}
+
+// thermalSet is a validated set of samples with its per-sample moments at
+// every temperature, ready for the averages of any jackknife replica.
+type thermalSet struct {
+	sectors    []SectorSamples
+	temps      []float64
+	shift      float64
+	blocks     int
+	observable bool
+	refs       []sampleRef
+	mom        [][]sampleMoment // [sample][temperature]
+	count      [][]int          // [sector][block]: samples of a stochastic sector in a block
+	lnc        []float64
+	zs         []float64
+}
+
+type sampleRef struct {
+	sector, block int
+}
+
+func newThermalSet(sectors []SectorSamples, temps []float64, shift float64) (*thermalSet, error) {
 	if len(sectors) == 0 {
 		return nil, errors.New("lanczos: no sectors")
 	}
 	blocks := 0
+	withObs, without := 0, 0
 	for i, s := range sectors {
 		if s.Dimension <= 0 {
 			return nil, fmt.Errorf("lanczos: sector %d: dimension %d", i, s.Dimension)
@@ -108,6 +243,14 @@ func Thermodynamics(sectors []SectorSamples, temps []float64, shift float64) (*T
 			if r == nil || len(r.Values) == 0 || len(r.Values) != len(r.Weights) {
 				return nil, fmt.Errorf("lanczos: sector %d: sample %d is empty or malformed", i, j)
 			}
+			switch {
+			case r.Observable == nil:
+				without++
+			case len(r.Observable) != len(r.Values):
+				return nil, fmt.Errorf("lanczos: sector %d: sample %d has %d observable weights for %d Ritz values", i, j, len(r.Observable), len(r.Values))
+			default:
+				withObs++
+			}
 		}
 		if !s.Exact {
 			if len(s.Samples) < 2 {
@@ -117,6 +260,9 @@ func Thermodynamics(sectors []SectorSamples, temps []float64, shift float64) (*T
 				blocks = len(s.Samples)
 			}
 		}
+	}
+	if withObs > 0 && without > 0 {
+		return nil, fmt.Errorf("lanczos: %d samples carry observable weights and %d do not: all or none must", withObs, without)
 	}
 	for _, T := range temps {
 		if !(T > 0) {
@@ -129,152 +275,109 @@ func Thermodynamics(sectors []SectorSamples, temps []float64, shift float64) (*T
 	if math.IsInf(shift, 0) || math.IsNaN(shift) {
 		return nil, errors.New("lanczos: non-finite energy shift")
 	}
-	out := &Thermal{
-		Temperatures: append([]float64(nil), temps...),
-		Shift:        shift,
-		Blocks:       blocks,
-	}
+	ts := &thermalSet{sectors: sectors, temps: temps, shift: shift, blocks: blocks, observable: withObs > 0,
+		count: make([][]int, len(sectors)), lnc: make([]float64, len(sectors)), zs: make([]float64, len(sectors))}
 	nt := len(temps)
-	for _, p := range []*[]Estimate{&out.LnZ, &out.Energy, &out.SpecificHeat, &out.Entropy, &out.Mean, &out.Variance} {
-		*p = make([]Estimate, nt)
-	}
-
 	// Per sample and temperature: ln z_r = ln sum_j w_j e^{-e_j/T}, the mean
-	// m_r and the variance v_r of e_j under the weights w_j e^{-e_j/T}.
-	type sampleRef struct {
-		sector, block int
-	}
-	var refs []sampleRef
-	var mom [][]sampleMoment // [sample][temperature]
+	// m_r and the variance v_r of e_j under the weights w_j e^{-e_j/T}, and
+	// the observable's share.
 	for si, s := range sectors {
 		rs := len(s.Samples)
+		if !s.Exact {
+			ts.count[si] = make([]int, blocks)
+		}
 		for r, rz := range s.Samples {
 			block := -1
 			if !s.Exact {
 				block = r * blocks / rs
+				ts.count[si][block]++
 			}
-			refs = append(refs, sampleRef{si, block})
+			ts.refs = append(ts.refs, sampleRef{si, block})
 			row := make([]sampleMoment, nt)
 			for ti, T := range temps {
 				row[ti] = sampleMoments(rz, s.Offset-shift, T)
 			}
-			mom = append(mom, row)
+			ts.mom = append(ts.mom, row)
 		}
 	}
-
-	// count[s][b]: samples of stochastic sector s in block b.
-	count := make([][]int, len(sectors))
-	for si, s := range sectors {
-		if !s.Exact {
-			count[si] = make([]int, blocks)
-		}
-	}
-	for _, ref := range refs {
-		if ref.block >= 0 {
-			count[ref.sector][ref.block]++
-		}
-	}
-
-	// averages computes the six averages at temperature ti, leaving block
-	// leave out (-1: none).
-	lnc := make([]float64, len(sectors))
-	averages := func(ti, leave int) [6]float64 {
-		T := temps[ti]
-		for si, s := range sectors {
-			if s.Exact {
-				lnc[si] = 0
-				continue
-			}
-			used := len(s.Samples)
-			if leave >= 0 {
-				used -= count[si][leave]
-			}
-			lnc[si] = math.Log(float64(s.Dimension) / float64(used))
-		}
-		// ln Z by log-sum-exp over the samples.
-		top := math.Inf(-1)
-		for i, ref := range refs {
-			if ref.block >= 0 && ref.block == leave {
-				continue
-			}
-			top = max(top, lnc[ref.sector]+mom[i][ti].lz)
-		}
-		var z, e1 float64
-		zs := make([]float64, len(sectors))
-		for i, ref := range refs {
-			if ref.block >= 0 && ref.block == leave {
-				continue
-			}
-			p := math.Exp(lnc[ref.sector] + mom[i][ti].lz - top)
-			z += p
-			zs[ref.sector] += p
-			e1 += p * mom[i][ti].mean
-		}
-		lnZ := top + math.Log(z)
-		e1 /= z
-		var varE float64
-		for i, ref := range refs {
-			if ref.block >= 0 && ref.block == leave {
-				continue
-			}
-			p := math.Exp(lnc[ref.sector]+mom[i][ti].lz-top) / z
-			d := mom[i][ti].mean - e1
-			varE += p * (mom[i][ti].vari + d*d)
-		}
-		var x1 float64
-		for si, s := range sectors {
-			x1 += zs[si] / z * s.Value
-		}
-		var varX float64
-		for si, s := range sectors {
-			d := s.Value - x1
-			varX += zs[si] / z * d * d
-		}
-		var a [6]float64
-		invT := 1 / T
-		a[0] = lnZ - shift*invT
-		a[1] = shift + e1
-		a[2] = varE * invT * invT
-		a[3] = lnZ + e1*invT
-		a[4] = x1
-		a[5] = varX
-		return a
-	}
-
-	fields := []*[]Estimate{&out.LnZ, &out.Energy, &out.SpecificHeat, &out.Entropy, &out.Mean, &out.Variance}
-	for ti := range temps {
-		full := averages(ti, -1)
-		var errs [6]float64
-		if blocks >= 2 {
-			reps := make([][6]float64, blocks)
-			var mean [6]float64
-			for b := range blocks {
-				reps[b] = averages(ti, b)
-				for q := range 6 {
-					mean[q] += reps[b][q] / float64(blocks)
-				}
-			}
-			for q := range 6 {
-				var ss float64
-				for b := range blocks {
-					d := reps[b][q] - mean[q]
-					ss += d * d
-				}
-				errs[q] = math.Sqrt(float64(blocks-1) / float64(blocks) * ss)
-			}
-		}
-		for q, f := range fields {
-			(*f)[ti] = Estimate{full[q], errs[q]}
-		}
-	}
-	return out, nil
+	return ts, nil
 }
 
-// sampleMoment is one sample's contribution at one temperature.
-type sampleMoment struct{ lz, mean, vari float64 }
+// averages returns ln Z, E, C, S, <x>, Var x and <A> (0 without observable
+// weights) at temperature index ti, leaving block leave out (-1: none).
+func (ts *thermalSet) averages(ti, leave int) [7]float64 {
+	T := ts.temps[ti]
+	sectors, refs, mom, lnc, zs := ts.sectors, ts.refs, ts.mom, ts.lnc, ts.zs
+	for si, s := range sectors {
+		zs[si] = 0
+		if s.Exact {
+			lnc[si] = 0
+			continue
+		}
+		used := len(s.Samples)
+		if leave >= 0 {
+			used -= ts.count[si][leave]
+		}
+		lnc[si] = math.Log(float64(s.Dimension) / float64(used))
+	}
+	// ln Z by log-sum-exp over the samples.
+	top := math.Inf(-1)
+	for i, ref := range refs {
+		if ref.block >= 0 && ref.block == leave {
+			continue
+		}
+		top = max(top, lnc[ref.sector]+mom[i][ti].lz)
+	}
+	var z, e1, a1 float64
+	for i, ref := range refs {
+		if ref.block >= 0 && ref.block == leave {
+			continue
+		}
+		p := math.Exp(lnc[ref.sector] + mom[i][ti].lz - top)
+		z += p
+		zs[ref.sector] += p
+		e1 += p * mom[i][ti].mean
+		a1 += p * mom[i][ti].obs
+	}
+	lnZ := top + math.Log(z)
+	e1 /= z
+	var varE float64
+	for i, ref := range refs {
+		if ref.block >= 0 && ref.block == leave {
+			continue
+		}
+		p := math.Exp(lnc[ref.sector]+mom[i][ti].lz-top) / z
+		d := mom[i][ti].mean - e1
+		varE += p * (mom[i][ti].vari + d*d)
+	}
+	var x1 float64
+	for si, s := range sectors {
+		x1 += zs[si] / z * s.Value
+	}
+	var varX float64
+	for si, s := range sectors {
+		d := s.Value - x1
+		varX += zs[si] / z * d * d
+	}
+	var a [7]float64
+	invT := 1 / T
+	a[0] = lnZ - ts.shift*invT
+	a[1] = ts.shift + e1
+	a[2] = varE * invT * invT
+	a[3] = lnZ + e1*invT
+	a[4] = x1
+	a[5] = varX
+	a[6] = a1 / z
+	return a
+}
 
-// sampleMoments returns ln sum_j w_j e^{-e_j/T} and the mean and variance of
-// e_j = eps_j + off under the weights w_j e^{-e_j/T}.
+// sampleMoment is one sample's contribution at one temperature: lz = ln
+// sum_j w_j e^{-e_j/T}, the mean and variance of e_j under those weights,
+// and obs = sum_j a_j e^{-e_j/T} / sum_j w_j e^{-e_j/T} (a_j the
+// observable weights; 0 without).
+type sampleMoment struct{ lz, mean, vari, obs float64 }
+
+// sampleMoments returns the sampleMoment of rz with e_j = eps_j + off.
 func sampleMoments(rz *Ritz, off, T float64) (m sampleMoment) {
 	invT := 1 / T
 	top := math.Inf(-1)
@@ -307,5 +410,18 @@ func sampleMoments(rz *Ritz, off, T float64) (m sampleMoment) {
 	m.lz = top + math.Log(z)
 	m.mean = mean
 	m.vari = s2 / z
+	if rz.Observable != nil {
+		// |a_j| <= w_j^(1/2) ||A r||, so the exponent below stays far from
+		// overflow wherever w_j is representable; an a_j whose w_j is 0
+		// belongs to a Ritz vector orthogonal to r (to rounding) and is 0
+		// or negligible.
+		var s float64
+		for j, e := range rz.Values {
+			if a := rz.Observable[j]; a != 0 && rz.Weights[j] > 0 {
+				s += math.Copysign(math.Exp(math.Log(math.Abs(a))-(e+off)*invT-top), a)
+			}
+		}
+		m.obs = s / z
+	}
 	return m
 }
