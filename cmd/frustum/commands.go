@@ -160,8 +160,10 @@ be > 0 K.
 otherwise uses finite-temperature Lanczos (FTLM) in symmetry sectors: R
 random vectors of M Lanczos steps per sector (--vectors, --steps; sectors of
 at most 400 states exactly), every value with its statistical error (one
-standard deviation, jackknife over the random vectors). FTLM gives M and chi
-where the moment along the field is g S^z with S^z conserved.`,
+standard deviation, jackknife over the random vectors). Where the moment
+along the field is not g S^z (sites with other g, g tensors, DM with a
+transverse field) M is the FTLM estimate of <M> at the field and chi a
+central difference at B +- h with the same random vectors (three runs).`,
 	example: `frustum thermo --cluster testdata/dimer.json --temps log:0.5:300:100
 frustum thermo --cluster testdata/spin1-chain.json --temps 1,2,5,10 --field 0,0,2 --csv`,
 	flags: func(fs *flagSet) func() (*frustumv1.JobSpec, error) {

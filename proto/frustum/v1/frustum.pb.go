@@ -716,9 +716,10 @@ type MagnetizationParameters struct {
 	// susceptibility: also return dM/dB along the field at every point.
 	Susceptibility bool `protobuf:"varint,5,opt,name=susceptibility,proto3" json:"susceptibility,omitempty"`
 	// method: "auto" (or empty: full diagonalization where it fits, else
-	// finite-temperature Lanczos), "full" or "ftlm". FTLM needs one effective
-	// g along the field (M = g S^z with S^z conserved) and T > 0, and gives
-	// no group moments.
+	// finite-temperature Lanczos), "full" or "ftlm". FTLM needs T > 0 and
+	// gives no group moments; with one effective g along the field (M = g S^z
+	// with S^z conserved) one set of samples serves every field, otherwise
+	// every field is its own run (three with susceptibility).
 	Method string          `protobuf:"bytes,6,opt,name=method,proto3" json:"method,omitempty"`
 	Ftlm   *FtlmParameters `protobuf:"bytes,7,opt,name=ftlm,proto3" json:"ftlm,omitempty"`
 	// no_spatial_symmetry keeps FTLM to S^z sectors.
