@@ -222,7 +222,9 @@ type Curve struct {
 	// request asked for it.
 	Susceptibility []float64
 	// MagnetizationError and SusceptibilityError are the one-standard-
-	// deviation statistical errors of the FTLM route (nil when exact).
+	// deviation statistical errors of the FTLM route (nil when exact). In
+	// a powder average they are sum_k |w_k| sigma_k over the directions, a
+	// bound that holds however the directions' errors are correlated.
 	MagnetizationError, SusceptibilityError []float64
 }
 

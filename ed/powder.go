@@ -297,10 +297,32 @@ func averageCurves(rule sphere.Rule, src []pointSource, results []*Magnetization
 					c.Susceptibility[bi] += w * from.Susceptibility[bi]
 				}
 			}
+			// Statistical errors (FTLM): the directions share their random
+			// vectors, so their errors may be correlated; sum_k |w_k|
+			// sigma_k bounds the standard deviation of the weighted sum
+			// whatever the correlation (Minkowski's inequality).
+			addError(&c.MagnetizationError, from.MagnetizationError, w, nb)
+			if req.Susceptibility {
+				addError(&c.SusceptibilityError, from.SusceptibilityError, w, nb)
+			}
 		}
 		out[ti] = c
 	}
 	return out
+}
+
+// addError adds |w| src to *dst (allocated with n entries on first use);
+// nothing when src is nil.
+func addError(dst *[]float64, src []float64, w float64, n int) {
+	if src == nil {
+		return
+	}
+	if *dst == nil {
+		*dst = make([]float64, n)
+	}
+	for i := range *dst {
+		(*dst)[i] += math.Abs(w) * src[i]
+	}
 }
 
 // averageSaturation returns the rule's average of sum_i |g_i^T n| S_i, in

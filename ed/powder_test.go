@@ -251,3 +251,53 @@ func TestPowderPlanAndRequests(t *testing.T) {
 		t.Errorf("powder plan over the memory limit: %v, want a LimitError", err)
 	}
 }
+
+// A powder average by finite-temperature Lanczos (every direction its own
+// FTLM run, since alternate sites carry an axial g tensor) against the same
+// average by full diagonalization (the dense route, an independent
+// construction): within 4 of the reported errors at every point (common
+// practice, no source), the errors present and positive. The averaged
+// error is sum_k |w_k| sigma_k, a bound whatever the correlation between
+// the directions (Minkowski's inequality), so the check is conservative.
+func TestPowderFTLMCarriesErrors(t *testing.T) {
+	m, err := cluster.Ring(8, cluster.ChainParams{J1: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < len(m.Sites); i += 2 {
+		m.Sites[i].G = [9]float64{1.9, 0, 0, 0, 1.9, 0, 0, 0, 2.4}
+	}
+	temps, fields := []float64{0.3, 2}, []float64{0.5, 3}
+	req := ed.MagnetizationRequest{Temperatures: temps, Fields: fields, Powder: 6, Susceptibility: true}
+	full, err := ed.Magnetization(context.Background(), m, req, ed.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	req.Method, req.FTLM = ed.MethodFTLM, ed.FTLMOptions{Vectors: 8, Steps: 40, ExactBelow: -1, Seed: 3}
+	ft, err := ed.Magnetization(context.Background(), m, req, ed.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ft.Powder == nil || ft.Powder.Evaluated < 2 {
+		t.Fatalf("powder report %+v", ft.Powder)
+	}
+	for ti := range temps {
+		f, c := full.Curves[ti], ft.Curves[ti]
+		if len(c.MagnetizationError) != len(fields) || len(c.SusceptibilityError) != len(fields) {
+			t.Fatalf("T = %g: errors %v, %v", temps[ti], c.MagnetizationError, c.SusceptibilityError)
+		}
+		for bi := range fields {
+			for _, q := range []struct {
+				name           string
+				got, err, want float64
+			}{
+				{"M", c.Magnetization[bi], c.MagnetizationError[bi], f.Magnetization[bi]},
+				{"chi", c.Susceptibility[bi], c.SusceptibilityError[bi], f.Susceptibility[bi]},
+			} {
+				if !(q.err > 0) || math.Abs(q.got-q.want) > 4*q.err {
+					t.Errorf("T = %g, B = %g: %s = %.6g +- %.2g, full %.6g", temps[ti], fields[bi], q.name, q.got, q.err, q.want)
+				}
+			}
+		}
+	}
+}
