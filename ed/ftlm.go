@@ -126,7 +126,7 @@ type ftlmPlan struct {
 func planFTLM(m *cluster.Model, st *setup, op *operator, opts FTLMOptions, inversion, spatial, mirror, observable bool, l Limits) (*ftlmPlan, error) {
 	// planKrylov counts a Lanczos basis for the lowest levels; the sectors
 	// are the same, the memory is counted here.
-	kp, err := planKrylov(m, st, op, 1, false, inversion, spatial, mirror, Limits{MaxMemory: math.MaxInt64}, nil)
+	kp, err := planKrylov(m, st, op, 1, false, inversion, spatial, mirror, !observable, Limits{MaxMemory: math.MaxInt64}, nil)
 	if err != nil {
 		return nil, err
 	}
@@ -366,11 +366,6 @@ func ftlmSamples(ctx context.Context, fp *ftlmPlan, opt Options) ([]lanczos.Sect
 	done := make([]bool, len(kp.sectors))
 	var matvecs int64
 	solved := 0
-	key := func(v int, label string) string { return fmt.Sprintf("%d|%s", v, label) }
-	index := map[string]int{}
-	for i, s := range kp.sectors {
-		index[key(s.twoSz, s.irrep.Label)] = i
-	}
 	for pass := 0; pass < 2; pass++ {
 		for i, s := range kp.sectors {
 			if s.mirror != (pass == 1) {
@@ -384,8 +379,8 @@ func ftlmSamples(ctx context.Context, fp *ftlmPlan, opt Options) ([]lanczos.Sect
 			}
 			twoSz[i] = s.twoSz
 			if s.mirror {
-				j, ok := index[key(-s.twoSz, s.irrep.Label)]
-				if !ok || !done[j] {
+				j := s.partner
+				if !done[j] {
 					return nil, nil, 0, 0, fmt.Errorf("ed: no partner sector for %s", s.label)
 				}
 				out[i] = out[j]
@@ -423,7 +418,7 @@ func planThermoFTLM(m *cluster.Model, req ThermoRequest, p *taskPlan, denseErr e
 		fp.moments = true
 		p.ftlm = fp
 		p.rep = fp.report(dimension)
-		p.rep.Route = fmt.Sprintf("%s; finite-temperature Lanczos in %d sectors (%s)%s", thermoRoute(st, p.B), len(fp.kp.sectors), fp.kp.groups.about, why)
+		p.rep.Route = fmt.Sprintf("%s; finite-temperature Lanczos in %d sectors (%s)%s%s", thermoRoute(st, p.B), len(fp.kp.sectors), fp.kp.groups.about, fp.kp.partnersNote(), why)
 		return p, nil
 	}
 	fp, err := planPerField(m, st, req.FTLM, !req.NoSpatialSymmetry, req.Temperatures, opt.Limits)
@@ -553,7 +548,7 @@ func planMagnetizationFTLM(m *cluster.Model, req MagnetizationRequest, p *taskPl
 		fp.moments = true
 		kp := fp.kp
 		p.rep = fp.report(dimension)
-		p.rep.Route = fmt.Sprintf("%s; every field a Zeeman shift of the zero-field sectors, sampled once by finite-temperature Lanczos in %d sectors (%s)%s", spectrumRoute(st, 1, true), len(kp.sectors), kp.groups.about, why)
+		p.rep.Route = fmt.Sprintf("%s; every field a Zeeman shift of the zero-field sectors, sampled once by finite-temperature Lanczos in %d sectors (%s)%s%s", spectrumRoute(st, 1, true), len(kp.sectors), kp.groups.about, kp.partnersNote(), why)
 	} else {
 		p.rep = fp.report(dimension)
 		runs := 0

@@ -133,8 +133,80 @@ type krylovSector struct {
 	irrep hilbert.Irrep
 	mem   hilbert.Memory
 	label string
-	// mirror: the sector's spectrum is that of its partner at -S^z.
-	mirror bool
+	// mirror: the sector's spectrum is that of sector partner (an index
+	// into krylovPlan.sectors, a sector that is solved itself): its image
+	// at -S^z under the spin flip, or the sector of the complex conjugate
+	// representation where the Hamiltonian is real (time reversal), or
+	// both. partner is -1 when mirror is false.
+	mirror  bool
+	partner int
+}
+
+// pairSectors sets the partner of every sector whose spectrum another one
+// gives: sectors marked mirror (S^z < 0) take their image at -S^z, and with
+// conj a sector takes the sector of the conjugate representation at the
+// same S^z (or at -S^z). Partners are sectors that are solved themselves;
+// a mirror whose image is not in the plan (a selection left it out) is
+// solved itself.
+func (p *krylovPlan) pairSectors(conj bool) {
+	key := func(v int, ir hilbert.Irrep, conjugate bool) string {
+		var b strings.Builder
+		fmt.Fprintf(&b, "%d", v)
+		n := ir.Group().Order()
+		for e := 0; e < n; e++ {
+			ph := ir.Phase(e)
+			if conjugate {
+				ph = (n - ph) % n
+			}
+			fmt.Fprintf(&b, ",%d", ph)
+		}
+		return b.String()
+	}
+	roots := map[string]int{}
+	for pass := 0; pass < 2; pass++ {
+		for i := range p.sectors {
+			s := &p.sectors[i]
+			flip := s.mirror
+			if flip != (pass == 1) {
+				continue
+			}
+			var cands []string
+			switch {
+			case flip:
+				cands = append(cands, key(-s.twoSz, s.irrep, false))
+				if conj {
+					cands = append(cands, key(-s.twoSz, s.irrep, true))
+				}
+			case conj && !s.irrep.Real:
+				cands = append(cands, key(s.twoSz, s.irrep, true))
+			}
+			s.mirror, s.partner = false, -1
+			for _, c := range cands {
+				if j, ok := roots[c]; ok {
+					s.mirror, s.partner = true, j
+					break
+				}
+			}
+			if !s.mirror {
+				roots[key(s.twoSz, s.irrep, false)] = i
+			}
+		}
+	}
+}
+
+// partnersNote says, for the route, how many sectors take a partner's
+// spectrum instead of being solved ("" when none).
+func (p *krylovPlan) partnersNote() string {
+	n := 0
+	for _, s := range p.sectors {
+		if s.mirror {
+			n++
+		}
+	}
+	if n == 0 {
+		return ""
+	}
+	return fmt.Sprintf(", %d of them from the spectrum of a partner sector (the spin flip S^z -> -S^z, or complex conjugation chi -> conj(chi) of a real Hamiltonian, k -> -k)", n)
 }
 
 // krylovPlan is the plan of the Lanczos route.
@@ -177,7 +249,14 @@ func sectorSelected(label string, only []string) bool {
 }
 
 // planKrylov lays out the sectors of op and checks the memory.
-func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inversion, spatial, mirror bool, l Limits, only []string) (*krylovPlan, error) {
+//
+// mirror lets a sector at S^z < 0 take the spectrum of its image at -S^z
+// (the spin flip commutes with op); conjugate lets a sector take that of
+// the sector of the complex conjugate representation when op is real in
+// the S^z basis (complex conjugation commutes with op and with the site
+// permutations and the flip, and maps chi onto conj(chi)), so that the
+// momenta k and -k are solved once.
+func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inversion, spatial, mirror, conjugate bool, l Limits, only []string) (*krylovPlan, error) {
 	h := toHilbert(st.sys, op)
 	groups, err := newSymmetryGroups(m, st.sys, inversion, spatial)
 	if err != nil {
@@ -216,8 +295,13 @@ func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inver
 			}
 			p.sectors = append(p.sectors, krylovSector{twoSz: v, group: g, irrep: ir, mem: mem, label: label,
 				mirror: mirror && v != hilbert.NoSz && v < 0})
-			p.complexH = p.complexH || !mem.Real
 			p.largest = max(p.largest, mem.Dim)
+		}
+	}
+	p.pairSectors(conjugate && op.isReal())
+	for _, s := range p.sectors {
+		if !s.mirror {
+			p.complexH = p.complexH || !s.mem.Real
 		}
 	}
 	limit := l.MaxMemory
@@ -357,12 +441,6 @@ func spectrumKrylov(ctx context.Context, m *cluster.Model, req SpectrumRequest, 
 	groundE := math.Inf(1)
 	var groundLabel string
 	results := map[int]*sectorResult{}
-	byTwoSz := map[string]int{}
-	for i, s := range kp.sectors {
-		if !s.mirror {
-			byTwoSz[fmt.Sprintf("%d|%s", s.twoSz, s.irrep.Label)] = i
-		}
-	}
 	solved, matvecs := 0, 0
 	unconverged := []string{}
 	// Shells of |S^z| from the smallest up; in each, the sectors solved
@@ -427,13 +505,12 @@ func spectrumKrylov(ctx context.Context, m *cluster.Model, req SpectrumRequest, 
 		}
 		var r *sectorResult
 		if s.mirror {
-			// The flip maps S^z onto -S^z and the representation onto
-			// itself: the partner's spectrum.
-			j, ok := byTwoSz[fmt.Sprintf("%d|%s", -s.twoSz, s.irrep.Label)]
-			if !ok || results[j] == nil {
+			// The flip (S^z onto -S^z) or complex conjugation (chi onto
+			// conj(chi)) maps the partner onto this sector: its spectrum.
+			r = results[s.partner]
+			if r == nil {
 				return nil, fmt.Errorf("ed: no partner sector for %s", s.label)
 			}
-			r = results[j]
 		} else {
 			var err error
 			r, err = solveSector(ctx, kp, s, opt, req.Lanczos, req.Correlations)

@@ -131,11 +131,24 @@ func TestLanczosMatchesFullDiagonalization(t *testing.T) {
 	}
 	unequal.Symmetries = nil
 	unequal.Sites[3].G = [9]float64{2.4, 0, 0, 0, 2.4, 0, 0, 0, 2.4}
+	// Real Hamiltonians with translations: the momenta k and -k share one
+	// solve (time reversal), which the comparison covers.
+	j1j2, err := cluster.Ring(10, cluster.ChainParams{J1: 1, J2: 0.35})
+	if err != nil {
+		t.Fatal(err)
+	}
+	xxz, err := cluster.Ring(9, cluster.ChainParams{J1: 1, XXZ: true, Jz1: 0.6})
+	if err != nil {
+		t.Fatal(err)
+	}
 	for _, c := range []struct {
 		name  string
 		m     *cluster.Model
 		field [3]float64
 	}{
+		{"J1-J2 ring 10", j1j2, [3]float64{}},
+		{"J1-J2 ring 10, field along z", j1j2, [3]float64{0, 0, 0.9}},
+		{"XXZ ring 9", xxz, [3]float64{}},
 		{"kagome 2x2 torus", kag, [3]float64{}},
 		{"DM ring, field along z", dm, [3]float64{0, 0, 0.7}},
 		{"mixed-spin ring, tilted field", mixed, [3]float64{0.3, 0, 0.4}},
@@ -180,6 +193,9 @@ func TestLanczosMatchesFullDiagonalization(t *testing.T) {
 			if r > 1e-9*math.Max(1, math.Abs(lz.Energies[i])) {
 				t.Errorf("%s: residual %d = %v", c.name, i, r)
 			}
+		}
+		if strings.HasPrefix(c.name, "J1-J2") && !strings.Contains(lz.Report.Route, "from the spectrum of a partner sector") {
+			t.Errorf("%s: route %q", c.name, lz.Report.Route)
 		}
 		t.Logf("%s: %s; %d sectors", c.name, lz.Report.Symmetry, len(lz.Report.Sectors))
 	}

@@ -195,7 +195,7 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	// A selection of sectors breaks the pairing of S^z with -S^z: no
 	// mirrors then.
 	mirror = mirror && len(req.Sectors) == 0
-	kp, err := planKrylov(m, st, p.op, k, req.Correlations, inversion, !req.NoSpatialSymmetry, mirror, opt.Limits, req.Sectors)
+	kp, err := planKrylov(m, st, p.op, k, req.Correlations, inversion, !req.NoSpatialSymmetry, mirror, true, opt.Limits, req.Sectors)
 	if err != nil {
 		var le *LimitError
 		if errors.As(err, &le) && denseErr != nil && req.Levels == 0 {
@@ -211,7 +211,7 @@ func planSpectrum(m *cluster.Model, req SpectrumRequest, opt Options) (*taskPlan
 	if kp.csr {
 		op = "compact CSR matrix per sector"
 	}
-	p.rep.Route = fmt.Sprintf("%s; Lanczos in %d sectors (%s; %s), the lowest %d of each%s", spectrumRoute(st, B, p.analytic), len(kp.sectors), kp.groups.about, op, k, why)
+	p.rep.Route = fmt.Sprintf("%s; Lanczos in %d sectors (%s; %s)%s, the lowest %d of each%s", spectrumRoute(st, B, p.analytic), len(kp.sectors), kp.groups.about, op, kp.partnersNote(), k, why)
 	if why != "" {
 		p.rep.Warnings = append(p.rep.Warnings, fmt.Sprintf("all levels were asked for, but the cluster is too large for full diagonalization: the lowest %d from Lanczos", k))
 	}
