@@ -112,7 +112,9 @@ func newKernel[T Scalar](s *Sector) *kernel[T] {
 //
 // The representatives of all the states H|r> reaches are found first, and
 // looked up together (indexBatch), so that the memory accesses of the
-// lookups overlap.
+// lookups overlap; without spatial symmetry in a complete S^z sector of
+// spins 1/2 the states are their own representatives and the rank tables
+// give each column directly.
 func (k *kernel[T]) row(r int, sc *scratch[T]) (float64, []entry[T]) {
 	kd := sc.kd
 	buf := sc.buf[:0]
@@ -136,6 +138,22 @@ func (k *kernel[T]) row(r int, sc *scratch[T]) (float64, []entry[T]) {
 			act[na] = ti
 			miss := x&t.mask ^ t.need
 			na += int(1 - (miss|-miss)>>63)
+		}
+		if s.rankLow != nil {
+			// No spatial symmetry, a complete S^z sector: the rank tables
+			// give the columns directly.
+			for _, ti := range act[:na] {
+				t := &terms[ti]
+				a := k.coef[ti]
+				if bits.OnesCount64(x&t.zmask)&1 == 1 { // m = -1/2 on an odd number of S^z factors
+					a = -a
+				}
+				if j := s.Index(x ^ t.mask); j >= 0 {
+					buf = append(buf, entry[T]{int32(j), a})
+				}
+			}
+			sc.buf = buf
+			return d, buf
 		}
 		for _, ti := range act[:na] {
 			t := &terms[ti]

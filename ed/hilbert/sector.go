@@ -457,6 +457,9 @@ func parallelDo(ctx context.Context, n, workers int, fn func(w, i int)) error {
 
 func (s *Sector) enumerate(ctx context.Context, dim int) error {
 	low, ps := s.pieces()
+	if len(s.grp.elems) == 1 && s.sp.half {
+		return s.enumerateAll(ctx, dim, low, ps)
+	}
 	type result struct {
 		states []uint64
 		stab   []uint16
@@ -501,6 +504,50 @@ func (s *Sector) enumerate(ctx context.Context, dim int) error {
 			s.stab = append(s.stab, res[i].stab...)
 		}
 		res[i] = result{}
+	}
+	return nil
+}
+
+// enumerateAll is enumerate without a group, for spins 1/2: every state of
+// a piece is kept, so the pieces' sizes are binomial coefficients and each
+// piece is written in place.
+func (s *Sector) enumerateAll(ctx context.Context, dim, low int, ps []piece) error {
+	off := make([]int, len(ps)+1)
+	for i, p := range ps {
+		n := 1 << uint(low)
+		if p.rem >= 0 {
+			n = 1
+			for j := 0; j < p.rem; j++ { // C(low, rem), exact at every step
+				n = n * (low - j) / (j + 1)
+			}
+		}
+		off[i+1] = off[i] + n
+	}
+	if off[len(ps)] != dim {
+		return fmt.Errorf("hilbert: internal error: %d states, the character formula gives %d", off[len(ps)], dim)
+	}
+	s.states = make([]uint64, dim)
+	var short atomic.Bool
+	err := parallelDo(ctx, len(ps), s.workers, func(_, i int) {
+		seg := s.states[off[i]:off[i+1]]
+		k := 0
+		s.enumeratePiece(low, ps[i], func(x uint64) {
+			seg[k] = x
+			k++
+		})
+		if k != len(seg) {
+			short.Store(true)
+		}
+	})
+	if err != nil {
+		return err
+	}
+	if short.Load() {
+		return errors.New("hilbert: internal error: a piece of the basis has fewer states than counted")
+	}
+	s.stab = make([]uint16, dim)
+	for i := range s.stab {
+		s.stab[i] = 1
 	}
 	return nil
 }

@@ -116,11 +116,15 @@
 // vectors (alpha = <v, H v> with the components along locked vectors; the
 // three-term update with the overlaps left; the normalization) and O(b^2)
 // operations for the estimates, plus two passes over the selected vectors
-// for each reorthogonalized one. For the 24-site Heisenberg ring with the
-// default Tol, 4 of 84 vectors were reorthogonalized; the operator then
-// took more than half of the time, and the thick restarts, the passes of
-// the steps and the first touch of the basis memory the rest (Full: 80%
-// of the time outside the operator, with the same 84 applications).
+// for each reorthogonalized one. The first pass is saved when the operator
+// is a DotOperator, whose product returns alpha and ||H v||^2 (without
+// locked vectors), and for real vectors the three-term update is one fused
+// loop rather than a BLAS call per vector and dot product. For the 24-site
+// Heisenberg ring with the default Tol, 4 of 84 vectors were
+// reorthogonalized; the operator then took more than half of the time, and
+// the thick restarts, the passes of the steps and the first touch of the
+// basis memory the rest (Full: 80% of the time outside the operator, with
+// the same 84 applications).
 // TestPartialSemiOrthogonality measures the overlaps that the estimates
 // stand for.
 //
@@ -205,22 +209,24 @@
 // # Determinism and parallelism
 //
 // The same operator, options and seed give bit-identical results, for any
-// GOMAXPROCS, provided that the operator's Apply does: the start vectors
-// come from math/rand/v2's PCG, and every reduction over a vector is summed
-// in fixed chunks of 32 KiB whose partial sums are added in chunk order.
+// GOMAXPROCS, provided that the operator's Apply (and ApplyDot, for a
+// DotOperator) does: the start vectors come from math/rand/v2's PCG, and
+// every reduction over a vector is summed in fixed chunks of 32 KiB whose
+// partial sums are added in chunk order.
 // Vectors of at least 65536 elements are processed by up to
 // runtime.GOMAXPROCS(0) goroutines, each on a fixed range of chunks. The
-// inner loops use gonum's BLAS kernels (Ddot, Daxpy, Zdotc, Zaxpy).
+// inner loops use gonum's BLAS kernels (Ddot, Daxpy, Zdotc, Zaxpy), except
+// the fused three-term update of real vectors.
 //
 // # Memory
 //
-// Lowest allocates Basis+1 vectors of Dim elements once, O(Basis^2)
-// besides and partial sums of the reductions (about 2 Basis floats per
-// chunk of 32 KiB, or Dim/64 floats for the Gram matrices); the Ritz
-// vectors are formed in place or in free slots of the basis, chunk by
+// Lowest allocates up to Basis+1 vectors of Dim elements, each when the
+// basis first reaches it (a run that converges early touches fewer),
+// O(Basis^2) besides and partial sums of the reductions (about 2 Basis
+// floats per chunk of 32 KiB, or Dim/64 floats for the Gram matrices); the
+// Ritz vectors are formed in place or in free slots of the basis, chunk by
 // chunk. A Sampler allocates three vectors (four with an observable).
-// MemoryEstimate gives both
-// before anything is allocated.
+// MemoryEstimate gives the peak of both before anything is allocated.
 //
 // # Caveats and limitations
 //

@@ -170,6 +170,7 @@ func Lowest[T Scalar](ctx context.Context, op Operator[T], opt Options[T]) (*Res
 type lowest[T Scalar] struct {
 	ctx      context.Context
 	op       Operator[T]
+	dotOp    DotOperator[T] // op, when it is one
 	n, m, k  int
 	tol      float64
 	maxMV    int
@@ -276,6 +277,7 @@ func newLowest[T Scalar](ctx context.Context, op Operator[T], opt Options[T]) (*
 	}
 	s := &lowest[T]{
 		ctx: ctx, op: op, n: n, m: m, k: k, tol: tol, maxMV: maxMV,
+		dotOp: dotOperator(op),
 		multi: opt.Multiplicities, vectors: opt.Vectors, progress: opt.Progress,
 		ld:        m + 1,
 		t:         make([]float64, (m+1)*(m+1)),
@@ -302,9 +304,7 @@ func newLowest[T Scalar](ctx context.Context, op Operator[T], opt Options[T]) (*
 		s.gram = make([]T, (m+1)*(m+1))
 	}
 	s.v = make([][]T, m+1)
-	for i := range s.v {
-		s.v[i] = make([]T, n)
-	}
+	s.slot(0)
 	if opt.Start != nil {
 		copy(s.v[0], opt.Start)
 		nr := math.Sqrt(norm2(&s.ws, s.v[0]))
@@ -316,6 +316,22 @@ func newLowest[T Scalar](ctx context.Context, op Operator[T], opt Options[T]) (*
 		return nil, err
 	}
 	return s, nil
+}
+
+// dotOperator returns op as a DotOperator, or nil.
+func dotOperator[T Scalar](op Operator[T]) DotOperator[T] {
+	d, _ := op.(DotOperator[T])
+	return d
+}
+
+// slot returns s.v[i], allocated on first use: a run that converges
+// before the basis is full never touches the memory of the slots it does
+// not reach.
+func (s *lowest[T]) slot(i int) []T {
+	if s.v[i] == nil {
+		s.v[i] = make([]T, s.n)
+	}
+	return s.v[i]
 }
 
 // tolFor is the absolute residual tolerance of a pair with value theta.
@@ -368,7 +384,7 @@ func (s *lowest[T]) stepFull() error {
 		return err
 	}
 	j := s.nl + s.b
-	dst := s.v[j+1]
+	dst := s.slot(j + 1)
 	if err := s.op.Apply(s.ctx, dst, s.v[j]); err != nil {
 		return fmt.Errorf("lanczos: apply: %w", err)
 	}
@@ -494,7 +510,7 @@ func (s *lowest[T]) restart(kk int, theta, u []float64) error {
 	if s.invariant {
 		clear(coupling)
 		if s.nl+kk < s.n {
-			if err := s.randomOrthogonal(s.v[s.nl+kk], s.nl+kk); err != nil {
+			if err := s.randomOrthogonal(s.slot(s.nl+kk), s.nl+kk); err != nil {
 				return err
 			}
 			s.invariant = false
@@ -679,6 +695,9 @@ func (s *lowest[T]) run() (*Result[T], error) {
 		slot0 := s.nl // slot of ys[0]
 		usedNext := false
 		if !s.invariant && s.b < capacity && free+ka < len(s.v) {
+			for i := free; i <= free+ka; i++ {
+				s.slot(i)
+			}
 			ys, work, slot0 = s.v[free:free+ka], s.v[free+ka], free
 			var gram []T
 			if !s.full {
@@ -702,9 +721,9 @@ func (s *lowest[T]) run() (*Result[T], error) {
 			}
 			switch {
 			case s.nl+kk+1 <= s.m:
-				work = s.v[s.nl+kk+1]
+				work = s.slot(s.nl + kk + 1)
 			case s.invariant:
-				work, usedNext = s.v[s.nl+kk], true
+				work, usedNext = s.slot(s.nl+kk), true
 			default:
 				work = make([]T, s.n) // not reached with validated options
 			}
@@ -765,7 +784,7 @@ func (s *lowest[T]) run() (*Result[T], error) {
 		s.force = false
 		s.estFactor, s.lastRatio, s.gap = 1, 0, 1
 		clear(s.t)
-		if err := s.randomOrthogonal(s.v[s.nl], s.nl); err != nil {
+		if err := s.randomOrthogonal(s.slot(s.nl), s.nl); err != nil {
 			return nil, err
 		}
 	}
@@ -778,12 +797,20 @@ func (s *lowest[T]) explicit(y, work []T) (float64, float64, error) {
 	if err := s.ctx.Err(); err != nil {
 		return 0, 0, err
 	}
-	if err := s.op.Apply(s.ctx, work, y); err != nil {
-		return 0, 0, fmt.Errorf("lanczos: apply: %w", err)
+	c := s.c1[:1]
+	if s.dotOp != nil {
+		dot, _, err := s.dotOp.ApplyDot(s.ctx, work, y)
+		if err != nil {
+			return 0, 0, fmt.Errorf("lanczos: apply: %w", err)
+		}
+		c[0] = fromReal[T](dot)
+	} else {
+		if err := s.op.Apply(s.ctx, work, y); err != nil {
+			return 0, 0, fmt.Errorf("lanczos: apply: %w", err)
+		}
+		dotMany(&s.ws, [][]T{y}, work, c)
 	}
 	s.mv++
-	c := s.c1[:1]
-	dotMany(&s.ws, [][]T{y}, work, c)
 	rho := realPart(c[0])
 	c[0] = fromReal[T](rho)
 	r2 := subtract(&s.ws, [][]T{y}, c, work, nil)

@@ -88,27 +88,37 @@ func abs2[T Scalar](z T) float64 {
 
 // stepPartial applies H to q = v[nl+b] and runs the three-term recurrence:
 // one pass for alpha = <q, H q> and the components along the locked
-// vectors, one that subtracts them and the couplings of q and measures the
-// overlaps that are left, one that normalizes. The locked vectors are not
-// part of the Lanczos relation (their residuals are not rounding), so they
-// are always subtracted. A reorthogonalization against the active basis
-// follows when the omega estimates call for it.
+// vectors (none when there are no locked vectors and the operator is a
+// DotOperator: the product returns alpha), one that subtracts them and the
+// couplings of q and measures the overlaps that are left, one that
+// normalizes. The locked vectors are not part of the Lanczos relation
+// (their residuals are not rounding), so they are always subtracted. A
+// reorthogonalization against the active basis follows when the omega
+// estimates call for it.
 func (s *lowest[T]) stepPartial() error {
 	if err := s.ctx.Err(); err != nil {
 		return err
 	}
 	b, nl, ld := s.b, s.nl, s.ld
 	j := nl + b
-	q, dst := s.v[j], s.v[j+1]
-	if err := s.op.Apply(s.ctx, dst, q); err != nil {
-		return fmt.Errorf("lanczos: apply: %w", err)
-	}
-	s.mv++
-
+	q, dst := s.v[j], s.slot(j+1)
 	first := append(s.list[:0], s.v[:nl]...)
 	first = append(first, q)
 	c := s.c1[:nl+1]
-	h2 := dotMany(&s.ws, first, dst, c)
+	var h2 float64
+	if s.dotOp != nil && nl == 0 {
+		dot, n2, err := s.dotOp.ApplyDot(s.ctx, dst, q)
+		if err != nil {
+			return fmt.Errorf("lanczos: apply: %w", err)
+		}
+		c[0], h2 = fromReal[T](dot), n2
+	} else {
+		if err := s.op.Apply(s.ctx, dst, q); err != nil {
+			return fmt.Errorf("lanczos: apply: %w", err)
+		}
+		h2 = dotMany(&s.ws, first, dst, c)
+	}
+	s.mv++
 	if math.IsNaN(h2) || math.IsInf(h2, 0) {
 		return errors.New("lanczos: operator produced a non-finite vector")
 	}
@@ -129,7 +139,7 @@ func (s *lowest[T]) stepPartial() error {
 	coef = append(coef, fromReal[T](alpha))
 	coupled = append(coupled, b)
 	d := s.c2[:len(sub)]
-	w0 := update(&s.ws, sub, coef, dst, sub, d)
+	w0 := recurrence(&s.ws, sub, coef, dst, d)
 
 	s.t[b*ld+b] = alpha
 	s.b++

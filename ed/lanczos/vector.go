@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"runtime"
+	"slices"
 	"sync"
 	"unsafe"
 
@@ -23,6 +24,19 @@ type Operator[T Scalar] interface {
 	Apply(ctx context.Context, dst, src []T) error
 }
 
+// DotOperator is an Operator that also returns, from the pass that forms a
+// product, the two reductions that a Lanczos step needs next: ApplyDot
+// sets dst = H src as Apply does and returns Re <src, dst> and ||dst||^2.
+// Lowest uses it when the operator has it (and no vectors are locked),
+// which saves the pass over both vectors that would compute them. For the
+// results of Lowest to be reproducible the sums must not depend on the
+// scheduling (for example partial sums over fixed blocks of rows, added in
+// order), as Apply must not.
+type DotOperator[T Scalar] interface {
+	Operator[T]
+	ApplyDot(ctx context.Context, dst, src []T) (dot, norm2 float64, err error)
+}
+
 // Vector kernels. Every reduction over a vector (dot products, norms) is
 // summed chunk by chunk: the vector is cut into chunks of chunkBytes bytes
 // (4096 real or 2048 complex elements),
@@ -37,6 +51,12 @@ const (
 	chunkBytes     = 1 << 15
 	parallelMinLen = 1 << 16
 )
+
+// combinePiece is the number of elements of each input that combine adds
+// into all its outputs at a time: 8 KiB of a real vector, so that the
+// pieces of a basis of up to about 100 vectors and of their combinations
+// fit in a core's L2 cache.
+const combinePiece = 1024
 
 var blasImpl blasgonum.Implementation
 
@@ -273,6 +293,87 @@ func update[T Scalar](ws *workspace, sub [][]T, c []T, w []T, dots [][]T, out []
 	return sums[stride-1]
 }
 
+// recurrence is update(ws, sub, c, w, sub, out), the three-term step of
+// Lowest: for one or two real vectors with nonzero coefficients it runs a
+// single fused loop per chunk (updateChunkReal) instead of the BLAS calls,
+// with the same w bit for bit and the sums added in another order.
+func recurrence[T Scalar](ws *workspace, sub [][]T, c []T, w []T, out []T) float64 {
+	if isComplex[T]() || len(sub) == 0 || len(sub) > 2 || slices.Contains(c[:len(sub)], 0) {
+		return update(ws, sub, c, w, sub, out)
+	}
+	n := len(w)
+	stride := len(sub) + 1
+	p := ws.partials(numChunks[T](n) * stride)
+	forChunks[T](n, func(_, ch, lo, hi int) {
+		updateChunkReal(sub, c, w, lo, hi, p[ch*stride:(ch+1)*stride])
+	})
+	sums := make([]float64, stride)
+	sumPartials(p, stride, sums)
+	storeCoefficients(sums[:stride-1], out, false)
+	return sums[stride-1]
+}
+
+// updateChunkReal is the chunk of recurrence for one or two real vectors
+// sub with nonzero coefficients: one loop sets w -= c[0] sub[0] (then
+// -= c[1] sub[1]), rounded as the BLAS path rounds it (the conversions
+// keep the products from being fused), and sums <sub[i], w> with the
+// updated w (into q[i]) and ||w||^2 (into q[len(sub)]), each in two
+// partial sums over the even and odd elements, added at the end.
+func updateChunkReal[T Scalar](sub [][]T, c []T, w []T, lo, hi int, q []float64) {
+	wf := floats(w[lo:hi])
+	cf := floats(c)
+	s0 := floats(sub[0][lo:hi])
+	s0 = s0[:len(wf)]
+	c0 := cf[0]
+	var d0, d0b, d1, d1b, n2, n2b float64
+	if len(sub) == 1 {
+		i := 0
+		for ; i+1 < len(wf); i += 2 {
+			x := wf[i] - float64(c0*s0[i])
+			y := wf[i+1] - float64(c0*s0[i+1])
+			wf[i], wf[i+1] = x, y
+			d0 += s0[i] * x
+			d0b += s0[i+1] * y
+			n2 += x * x
+			n2b += y * y
+		}
+		if i < len(wf) {
+			x := wf[i] - float64(c0*s0[i])
+			wf[i] = x
+			d0 += s0[i] * x
+			n2 += x * x
+		}
+	} else {
+		s1 := floats(sub[1][lo:hi])
+		s1 = s1[:len(wf)]
+		c1 := cf[1]
+		i := 0
+		for ; i+1 < len(wf); i += 2 {
+			x := (wf[i] - float64(c0*s0[i])) - float64(c1*s1[i])
+			y := (wf[i+1] - float64(c0*s0[i+1])) - float64(c1*s1[i+1])
+			wf[i], wf[i+1] = x, y
+			d0 += s0[i] * x
+			d0b += s0[i+1] * y
+			d1 += s1[i] * x
+			d1b += s1[i+1] * y
+			n2 += x * x
+			n2b += y * y
+		}
+		if i < len(wf) {
+			x := (wf[i] - float64(c0*s0[i])) - float64(c1*s1[i])
+			wf[i] = x
+			d0 += s0[i] * x
+			d1 += s1[i] * x
+			n2 += x * x
+		}
+	}
+	q[0] = d0 + d0b
+	if len(sub) == 2 {
+		q[1] = d1 + d1b
+	}
+	q[len(sub)] = n2 + n2b
+}
+
 // axpyChunk sets w[lo:hi] -= sum_i c[i] sub[i][lo:hi], skipping zero
 // coefficients.
 func axpyChunk[T Scalar](sub [][]T, c []T, w []T, lo, hi int, cplx bool) {
@@ -454,31 +555,38 @@ func asComplex(f []float64) []complex128 {
 
 // combineChunk sets buf[l*m:(l+1)*m] = sum_i u[i*k+l] vs[i][lo:hi] (float
 // views, m = (hi-lo) per) for l < k, with the coefficients uc when u is nil.
+// Zero coefficients are skipped. The chunk is processed in pieces of
+// combinePiece elements, every input's piece added into all k outputs
+// before the next input's is read, so that each input is read from memory
+// once while the pieces of all the outputs stay in cache; every element
+// of an output is still the sum over i in increasing order.
 func combineChunk[T Scalar](vs [][]T, u []float64, uc []T, k, lo, hi, per int, buf []float64) {
 	m := (hi - lo) * per
-	for l := range k {
-		acc := buf[l*m : (l+1)*m]
-		clear(acc)
-		switch {
-		case u != nil:
-			for i, v := range vs {
-				if a := u[i*k+l]; a != 0 {
-					blasImpl.Daxpy(m, a, floats(v[lo:hi]), 1, acc, 1)
+	clear(buf[:k*m])
+	for p0 := lo; p0 < hi; p0 += combinePiece {
+		p1 := min(hi, p0+combinePiece)
+		f0, f1 := (p0-lo)*per, (p1-lo)*per
+		for i, v := range vs {
+			x := floats(v[p0:p1])
+			switch {
+			case u != nil:
+				for l, a := range u[i*k : (i+1)*k] {
+					if a != 0 {
+						blasImpl.Daxpy(len(x), a, x, 1, buf[l*m+f0:l*m+f1], 1)
+					}
 				}
-			}
-		case per == 2:
-			cc := complexes(uc)
-			ac := asComplex(acc)
-			for i, v := range vs {
-				if a := cc[i*k+l]; a != 0 {
-					blasImpl.Zaxpy(hi-lo, a, complexes(v[lo:hi]), 1, ac, 1)
+			case per == 2:
+				xc := complexes(v[p0:p1])
+				for l, a := range complexes(uc[i*k : (i+1)*k]) {
+					if a != 0 {
+						blasImpl.Zaxpy(len(xc), a, xc, 1, asComplex(buf[l*m+f0:l*m+f1]), 1)
+					}
 				}
-			}
-		default:
-			cf := floats(uc)
-			for i, v := range vs {
-				if a := cf[i*k+l]; a != 0 {
-					blasImpl.Daxpy(m, a, floats(v[lo:hi]), 1, acc, 1)
+			default:
+				for l, a := range floats(uc[i*k : (i+1)*k]) {
+					if a != 0 {
+						blasImpl.Daxpy(len(x), a, x, 1, buf[l*m+f0:l*m+f1], 1)
+					}
 				}
 			}
 		}
