@@ -163,10 +163,14 @@ func (p *krylovPlan) pairSectors(conj bool) {
 		return b.String()
 	}
 	roots := map[string]int{}
+	flips := make([]bool, len(p.sectors))
+	for i, s := range p.sectors {
+		flips[i] = s.mirror
+	}
 	for pass := 0; pass < 2; pass++ {
 		for i := range p.sectors {
 			s := &p.sectors[i]
-			flip := s.mirror
+			flip := flips[i]
 			if flip != (pass == 1) {
 				continue
 			}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"math/cmplx"
 	"strings"
 	"testing"
 
@@ -322,5 +323,64 @@ func TestLanczosMultiplicities(t *testing.T) {
 		if strings.Contains(w, "fewer times") {
 			t.Errorf("warning kept: %s", w)
 		}
+	}
+}
+
+// Partner sectors of the 10-site Heisenberg ring at zero field (derivation,
+// counting by hand): 102 sectors (20 at S^z = 0 with the two spin-inversion
+// parities; 10 momenta at each of S^z = +-1 ... +-4; one at S^z = +-5).
+// The flip S^z -> -S^z gives every S^z < 0 sector its image, and complex
+// conjugation (the Hamiltonian is real) pairs k with -k: at S^z = 0 the
+// momenta 0 and pi stay, 1..4 are paired with 9..6, times two parities (12
+// solved); at each S^z = 1..4, 6 are solved; at S^z = 5, one. So 37
+// sectors are solved and 65 take a partner's spectrum, each partner solved
+// itself, at the same |S^z|, of the same or the conjugate representation.
+func TestPartnerSectors(t *testing.T) {
+	m, err := cluster.Ring(10, cluster.ChainParams{J1: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st := newSetup(m, [3]float64{0, 0, 1}, false)
+	kp, err := planKrylov(m, st, st.h0, 1, false, true, true, true, true, Limits{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	solved := 0
+	for _, s := range kp.sectors {
+		if !s.mirror {
+			solved++
+			continue
+		}
+		q := kp.sectors[s.partner]
+		if q.mirror || (q.twoSz != s.twoSz && q.twoSz != -s.twoSz) {
+			t.Errorf("%s: partner %s", s.label, q.label)
+		}
+		same, conj := true, true
+		for e := 0; e < s.irrep.Group().Order(); e++ {
+			a, b := s.irrep.Character(e), q.irrep.Character(e)
+			same = same && cmplx.Abs(a-b) < 1e-12
+			conj = conj && cmplx.Abs(a-cmplx.Conj(b)) < 1e-12
+		}
+		if !same && !conj {
+			t.Errorf("%s: partner %s of another representation", s.label, q.label)
+		}
+	}
+	if len(kp.sectors) != 102 || solved != 37 {
+		t.Errorf("%d sectors, %d solved; want 102 and 37", len(kp.sectors), solved)
+	}
+	// Without conjugation (a complex Hamiltonian would forbid it) only the
+	// flip pairs: 20 + 4*10 + 1 = 61 solved.
+	kp, err = planKrylov(m, st, st.h0, 1, false, true, true, true, false, Limits{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	solved = 0
+	for _, s := range kp.sectors {
+		if !s.mirror {
+			solved++
+		}
+	}
+	if solved != 61 {
+		t.Errorf("without conjugation: %d of %d sectors solved, want 61", solved, len(kp.sectors))
 	}
 }
