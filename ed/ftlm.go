@@ -144,14 +144,8 @@ func planFTLM(m *cluster.Model, st *setup, op *operator, opts FTLMOptions, inver
 		}
 		return peak + baseOverhead
 	}
-	kp.csr = true
-	kp.need = need(true)
-	if kp.need > limit {
-		kp.csr = false
-		kp.need = need(false)
-	}
-	if kp.need > limit {
-		return nil, &LimitError{Need: kp.need, Limit: limit, Dimension: st.sys.total, LargestSector: kp.largest}
+	if err := kp.fitMemory(need, limit, st.sys.total); err != nil {
+		return nil, err
 	}
 	return fp, nil
 }

@@ -331,6 +331,16 @@ func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inver
 		}
 		return peak + baseOverhead
 	}
+	if err := p.fitMemory(need, limit, st.sys.total); err != nil {
+		return nil, err
+	}
+	return p, nil
+}
+
+// fitMemory chooses the compact CSR matrix per sector when the peak need(true)
+// fits limit, else the matrix-free application, and sets p.csr and p.need;
+// a LimitError with both numbers when neither fits.
+func (p *krylovPlan) fitMemory(need func(csr bool) int64, limit, dimension int64) error {
 	p.csr = true
 	p.need = need(true)
 	if p.need > limit {
@@ -338,9 +348,9 @@ func planKrylov(m *cluster.Model, st *setup, op *operator, k int, vectors, inver
 		p.need = need(false)
 	}
 	if p.need > limit {
-		return nil, &LimitError{Need: p.need, Limit: limit, Dimension: st.sys.total, LargestSector: p.largest}
+		return &LimitError{Need: p.need, Limit: limit, Dimension: dimension, LargestSector: p.largest}
 	}
-	return p, nil
+	return nil
 }
 
 // report starts the engine report of the plan: method, solver, symmetry,

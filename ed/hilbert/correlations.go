@@ -97,6 +97,20 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 		}
 		k := make([]int, n)
 		m := make([]float64, n)
+		// term is c_r amp <s~|y> conj(c_s chi(e_s)) sqrt(|Stab_s|/|Stab_r|)
+		// for the product state y = O|r> / amp, 0 when y has no
+		// representative in the sector.
+		term := func(c complex128, fr float64, y uint64, amp float64) complex128 {
+			e := 0
+			if G > 1 {
+				y, e = s.act.representative(y)
+			}
+			j := s.Index(y)
+			if j < 0 {
+				return 0
+			}
+			return c * complex(amp*math.Sqrt(float64(s.stab[j]))*fr, 0) * cmplx.Conj(toComplex(psi[j])*chi[e])
+		}
 		for r := b * chunk; r < min(dim, (b+1)*chunk); r++ {
 			c := toComplex(psi[r])
 			wr := real(c)*real(c) + imag(c)*imag(c)
@@ -128,16 +142,7 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 					if !ok {
 						continue
 					}
-					y := x + uint64(int64(da)*int64(sp.stride[a]))
-					e := 0
-					if G > 1 {
-						y, e = s.act.representative(y)
-					}
-					j := s.Index(y)
-					if j < 0 {
-						continue
-					}
-					v := c * complex(la*math.Sqrt(float64(s.stab[j]))*fr, 0) * cmplx.Conj(toComplex(psi[j])*chi[e])
+					v := term(c, fr, x+uint64(int64(da)*int64(sp.stride[a])), la)
 					if oi == 0 {
 						p.up[a] += v
 					} else {
@@ -158,16 +163,7 @@ func correlations[T Scalar](ctx context.Context, s *Sector, psi []T) (*Correlati
 							continue
 						}
 						y := x + uint64(int64(da)*int64(sp.stride[a])) + uint64(int64(db)*int64(sp.stride[bb]))
-						e := 0
-						if G > 1 {
-							y, e = s.act.representative(y)
-						}
-						j := s.Index(y)
-						if j < 0 {
-							continue
-						}
-						amp := la * lb / 2 * math.Sqrt(float64(s.stab[j])) * fr
-						p.phi[a*n+bb] += c * complex(amp, 0) * cmplx.Conj(toComplex(psi[j])*chi[e])
+						p.phi[a*n+bb] += term(c, fr, y, la*lb/2)
 					}
 				}
 			}
