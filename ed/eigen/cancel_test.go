@@ -36,41 +36,43 @@ func waitGoroutines(t *testing.T, want int) {
 // context that is already done returns ctx.Err() at once, without reading or
 // writing a.
 func TestContextAlreadyDone(t *testing.T) {
-	const n = 300
-	canceled, cancel := context.WithCancel(context.Background())
-	cancel()
-	expired, cancel2 := context.WithDeadline(context.Background(), time.Now().Add(-time.Second))
-	defer cancel2()
-	for _, ctx := range []context.Context{canceled, expired} {
-		want := ctx.Err()
-		for _, vectors := range []bool{false, true} {
-			a0 := randSym(n, 1)
-			a := slices.Clone(a0)
-			v, z, err := SymmetricContext(ctx, a, n, vectors)
-			if err != want || v != nil || z != nil {
-				t.Errorf("Symmetric vectors=%v: err %v (want %v), values %v, vecs nil %v", vectors, err, want, v != nil, z == nil)
-			}
-			if !slices.Equal(a, a0) {
-				t.Errorf("Symmetric vectors=%v: a modified", vectors)
-			}
-			c0 := randHerm(n, 1)
-			c := slices.Clone(c0)
-			cv, cz, err := HermitianContext(ctx, c, n, vectors)
-			if err != want || cv != nil || cz != nil {
-				t.Errorf("Hermitian vectors=%v: err %v (want %v)", vectors, err, want)
-			}
-			if !slices.Equal(c, c0) {
-				t.Errorf("Hermitian vectors=%v: a modified", vectors)
+	forEachBackend(t, func(t *testing.T, be Backend) {
+		const n = 300
+		canceled, cancel := context.WithCancel(context.Background())
+		cancel()
+		expired, cancel2 := context.WithDeadline(context.Background(), time.Now().Add(-time.Second))
+		defer cancel2()
+		for _, ctx := range []context.Context{canceled, expired} {
+			want := ctx.Err()
+			for _, vectors := range []bool{false, true} {
+				a0 := randSym(n, 1)
+				a := slices.Clone(a0)
+				v, z, err := be.Symmetric(ctx, a, n, Job{Vectors: vectors}, nil)
+				if err != want || v != nil || z != nil {
+					t.Errorf("Symmetric vectors=%v: err %v (want %v), values %v, vecs nil %v", vectors, err, want, v != nil, z == nil)
+				}
+				if !slices.Equal(a, a0) {
+					t.Errorf("Symmetric vectors=%v: a modified", vectors)
+				}
+				c0 := randHerm(n, 1)
+				c := slices.Clone(c0)
+				cv, cz, err := be.Hermitian(ctx, c, n, Job{Vectors: vectors}, nil)
+				if err != want || cv != nil || cz != nil {
+					t.Errorf("Hermitian vectors=%v: err %v (want %v)", vectors, err, want)
+				}
+				if !slices.Equal(c, c0) {
+					t.Errorf("Hermitian vectors=%v: a modified", vectors)
+				}
 			}
 		}
-	}
-	// n = 0 and n = 1 too.
-	if _, _, err := SymmetricContext(canceled, nil, 0, true); err != context.Canceled {
-		t.Errorf("n=0: err %v", err)
-	}
-	if _, _, err := HermitianContext(canceled, []complex128{2}, 1, true); err != context.Canceled {
-		t.Errorf("n=1: err %v", err)
-	}
+		// n = 0 and n = 1 too.
+		if _, _, err := be.Symmetric(canceled, nil, 0, Job{Vectors: true}, nil); err != context.Canceled {
+			t.Errorf("n=0: err %v", err)
+		}
+		if _, _, err := be.Hermitian(canceled, []complex128{2}, 1, Job{Vectors: true}, nil); err != context.Canceled {
+			t.Errorf("n=1: err %v", err)
+		}
+	})
 }
 
 // Source: the API contract: with a live (cancellable, never cancelled)
@@ -78,47 +80,51 @@ func TestContextAlreadyDone(t *testing.T) {
 // arithmetic; the polls only read a flag), and no goroutine outlives the
 // call.
 func TestContextLiveSameResults(t *testing.T) {
-	ctx, cancel := context.WithCancel(context.Background())
-	defer cancel()
-	start := runtime.NumGoroutine()
-	for _, n := range []int{2, 57, 400} {
-		for _, vectors := range []bool{false, true} {
-			a0 := randSym(n, 3)
-			v1, z1, ok := Symmetric(slices.Clone(a0), n, vectors)
-			v2, z2, err := SymmetricContext(ctx, slices.Clone(a0), n, vectors)
-			if !ok || err != nil || !slices.Equal(v1, v2) || !slices.Equal(z1, z2) {
-				t.Errorf("Symmetric n=%d vectors=%v: ok %v err %v, results differ", n, vectors, ok, err)
-			}
-			c0 := randHerm(n, 3)
-			cv1, cz1, ok := Hermitian(slices.Clone(c0), n, vectors)
-			cv2, cz2, err := HermitianContext(ctx, slices.Clone(c0), n, vectors)
-			if !ok || err != nil || !slices.Equal(cv1, cv2) || !slices.Equal(cz1, cz2) {
-				t.Errorf("Hermitian n=%d vectors=%v: ok %v err %v, results differ", n, vectors, ok, err)
+	forEachBackend(t, func(t *testing.T, be Backend) {
+		ctx, cancel := context.WithCancel(context.Background())
+		defer cancel()
+		start := runtime.NumGoroutine()
+		for _, n := range []int{2, 57, 400} {
+			for _, vectors := range []bool{false, true} {
+				a0 := randSym(n, 3)
+				v1, z1, ok := symmetric(be, slices.Clone(a0), n, vectors)
+				v2, z2, err := be.Symmetric(ctx, slices.Clone(a0), n, Job{Vectors: vectors}, nil)
+				if !ok || err != nil || !slices.Equal(v1, v2) || !slices.Equal(z1, z2) {
+					t.Errorf("Symmetric n=%d vectors=%v: ok %v err %v, results differ", n, vectors, ok, err)
+				}
+				c0 := randHerm(n, 3)
+				cv1, cz1, ok := hermitian(be, slices.Clone(c0), n, vectors)
+				cv2, cz2, err := be.Hermitian(ctx, slices.Clone(c0), n, Job{Vectors: vectors}, nil)
+				if !ok || err != nil || !slices.Equal(cv1, cv2) || !slices.Equal(cz1, cz2) {
+					t.Errorf("Hermitian n=%d vectors=%v: ok %v err %v, results differ", n, vectors, ok, err)
+				}
 			}
 		}
-	}
-	cancel()
-	waitGoroutines(t, start)
+		cancel()
+		waitGoroutines(t, start)
+	})
 }
 
 // Source: the API contract: a failure of the method is reported as an error
 // wrapping ErrNoConvergence (a non-finite entry here), and the old API says
 // ok = false for it.
 func TestContextNoConvergence(t *testing.T) {
-	ctx, cancel := context.WithCancel(context.Background())
-	defer cancel()
-	_, _, err := SymmetricContext(ctx, []float64{1, 0, math.Inf(1), 2}, 2, true)
-	if !errors.Is(err, ErrNoConvergence) {
-		t.Errorf("Symmetric with Inf: err %v", err)
-	}
-	_, _, err = HermitianContext(ctx, []complex128{1, 0, cmplx.NaN(), 2}, 2, false)
-	if !errors.Is(err, ErrNoConvergence) {
-		t.Errorf("Hermitian with NaN: err %v", err)
-	}
-	// The iteration limit: a stage that gets no sweep at all.
-	if err := solveErr(ctx, ErrNoConvergence); !errors.Is(err, ErrNoConvergence) {
-		t.Errorf("solveErr: %v", err)
-	}
+	forEachBackend(t, func(t *testing.T, be Backend) {
+		ctx, cancel := context.WithCancel(context.Background())
+		defer cancel()
+		_, _, err := be.Symmetric(ctx, []float64{1, 0, math.Inf(1), 2}, 2, Job{Vectors: true}, nil)
+		if !errors.Is(err, ErrNoConvergence) {
+			t.Errorf("Symmetric with Inf: err %v", err)
+		}
+		_, _, err = be.Hermitian(ctx, []complex128{1, 0, cmplx.NaN(), 2}, 2, Job{}, nil)
+		if !errors.Is(err, ErrNoConvergence) {
+			t.Errorf("Hermitian with NaN: err %v", err)
+		}
+		// The iteration limit: a stage that gets no sweep at all.
+		if err := solveErr(ctx, ErrNoConvergence); !errors.Is(err, ErrNoConvergence) {
+			t.Errorf("solveErr: %v", err)
+		}
+	})
 }
 
 // Source: the requirement that a cancelled job stops promptly. n = 2000 with
@@ -147,9 +153,9 @@ func TestContextCancelPromptly(t *testing.T) {
 			var err error
 			var vals []float64
 			if kind == "real" {
-				vals, _, err = SymmetricContext(ctx, a, n, true)
+				vals, _, err = PureGo.Symmetric(ctx, a, n, Job{Vectors: true}, nil)
 			} else {
-				vals, _, err = HermitianContext(ctx, c, n, true)
+				vals, _, err = PureGo.Hermitian(ctx, c, n, Job{Vectors: true}, nil)
 			}
 			if err != nil && vals != nil {
 				err = errors.New("values with an error")
@@ -186,10 +192,10 @@ func TestContextCancelEveryStage(t *testing.T) {
 			a0, c0 := randSym(n, 5), randHerm(n, 5)
 			run := func(ctx context.Context) ([]float64, error) {
 				if kind == "real" {
-					v, _, err := SymmetricContext(ctx, slices.Clone(a0), n, vectors)
+					v, _, err := PureGo.Symmetric(ctx, slices.Clone(a0), n, Job{Vectors: vectors}, nil)
 					return v, err
 				}
-				v, _, err := HermitianContext(ctx, slices.Clone(c0), n, vectors)
+				v, _, err := PureGo.Hermitian(ctx, slices.Clone(c0), n, Job{Vectors: vectors}, nil)
 				return v, err
 			}
 			t0 := time.Now()
@@ -507,9 +513,9 @@ func measureCall(t *testing.T, n int, kind string, total time.Duration) {
 		timer := time.AfterFunc(time.Duration(f*float64(total)), func() { tc = time.Now(); cancel() })
 		var err error
 		if kind == "real" {
-			_, _, err = SymmetricContext(ctx, a, n, true)
+			_, _, err = PureGo.Symmetric(ctx, a, n, Job{Vectors: true}, nil)
 		} else {
-			_, _, err = HermitianContext(ctx, c, n, true)
+			_, _, err = PureGo.Hermitian(ctx, c, n, Job{Vectors: true}, nil)
 		}
 		end := time.Now()
 		if timer.Stop() || !errors.Is(err, context.Canceled) {
@@ -537,9 +543,9 @@ func benchContext(b *testing.B, n int, complexMatrix, vectors bool) {
 		b.StartTimer()
 		var err error
 		if complexMatrix {
-			_, _, err = HermitianContext(ctx, c, n, vectors)
+			_, _, err = PureGo.Hermitian(ctx, c, n, Job{Vectors: vectors}, nil)
 		} else {
-			_, _, err = SymmetricContext(ctx, a, n, vectors)
+			_, _, err = PureGo.Symmetric(ctx, a, n, Job{Vectors: vectors}, nil)
 		}
 		if err != nil {
 			b.Fatal(err)

@@ -3,6 +3,7 @@
 package eigen
 
 import (
+	"context"
 	"os"
 	"runtime"
 	"strconv"
@@ -11,7 +12,7 @@ import (
 	"time"
 )
 
-// TestProbeLongestStretch times, for the orders in EIGEN_PROBE_N (default
+// TestProbeLongestStretch times (for PureGo: LAPACK is not polled inside), for the orders in EIGEN_PROBE_N (default
 // 1000), the longest stretch between two polls of the stopper in each solver
 // path, entry and return included. Run it on one core, where that stretch is
 // the longest time a cancellation can go unnoticed:
@@ -30,14 +31,14 @@ func TestProbeLongestStretch(t *testing.T) {
 		for _, vectors := range []bool{true, false} {
 			probeReset()
 			t0 := time.Now()
-			if _, _, ok := Symmetric(randSym(n, 1), n, vectors); !ok {
+			if _, _, err := PureGo.Symmetric(context.Background(), randSym(n, 1), n, Job{Vectors: vectors}, nil); err != nil {
 				t.Fatal("not ok")
 			}
 			g, where := probeReport()
 			t.Logf("GOMAXPROCS=%d real n=%d vectors=%v: %v in all, longest stretch %v %s", runtime.GOMAXPROCS(0), n, vectors, time.Since(t0).Round(time.Millisecond), g.Round(10*time.Microsecond), where)
 			probeReset()
 			t0 = time.Now()
-			if _, _, ok := Hermitian(randHerm(n, 1), n, vectors); !ok {
+			if _, _, err := PureGo.Hermitian(context.Background(), randHerm(n, 1), n, Job{Vectors: vectors}, nil); err != nil {
 				t.Fatal("not ok")
 			}
 			g, where = probeReport()
