@@ -59,7 +59,9 @@ func TestMain(m *testing.M) {
 }
 
 // frustumd returns the path of the frustumd binary, built from this module
-// with `go build` the first time it is asked for.
+// with `go build` (and the build tags of this test binary, frustumdBuildTags,
+// so that its dense solver is the one of the in-process runs it is compared
+// with) the first time it is asked for.
 func frustumd(tb testing.TB) string {
 	tb.Helper()
 	buildOnce.Do(func() {
@@ -74,7 +76,7 @@ func frustumd(tb testing.TB) string {
 			return
 		}
 		out := filepath.Join(binDir, "frustumd")
-		cmd := exec.Command(goTool, "build", "-o", out, "./cmd/frustumd")
+		cmd := exec.Command(goTool, "build", "-tags="+strings.Join(frustumdBuildTags, ","), "-o", out, "./cmd/frustumd")
 		cmd.Dir = root
 		if b, err := cmd.CombinedOutput(); err != nil {
 			buildErr = fmt.Errorf("go build ./cmd/frustumd: %v\n%s", err, b)

@@ -53,16 +53,26 @@ func denseComplex(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator)
 	return a
 }
 
-// diagonalize builds op in sec and diagonalizes it densely; it stops early
-// with ctx.Err() when ctx is done, also inside the dense solver.
+// diagonalize builds op in sec and diagonalizes it densely with the build's
+// backend (eigen.Default: pure Go, or LAPACK with -tags lapack), every
+// eigenvalue and, when vectors, every eigenvector; it stops early with
+// ctx.Err() when ctx is done (also inside the pure-Go solver; with LAPACK
+// before the library call, which then runs to its end). The solver's
+// scratch memory (LAPACK's work
+// arrays, with vectors as large as the matrix or twice that) comes from
+// denseWorkspaces, so the sectors and field points that the workers
+// diagonalize one after another reuse it instead of allocating it per call.
 func diagonalize(ctx context.Context, sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool) (*sectorSpectrum, error) {
 	n := sec.dim()
 	out := &sectorSpectrum{sector: sec}
+	ws := denseWorkspaces.Get().(*eigen.Workspace)
+	defer denseWorkspaces.Put(ws)
+	job := eigen.Job{Vectors: vectors}
 	var err error
 	if real {
-		out.values, out.vecsR, err = eigen.SymmetricContext(ctx, denseReal(sys, bs, sec, op), n, vectors)
+		out.values, out.vecsR, err = eigen.Default().Symmetric(ctx, denseReal(sys, bs, sec, op), n, job, ws)
 	} else {
-		out.values, out.vecsC, err = eigen.HermitianContext(ctx, denseComplex(sys, bs, sec, op), n, vectors)
+		out.values, out.vecsC, err = eigen.Default().Hermitian(ctx, denseComplex(sys, bs, sec, op), n, job, ws)
 	}
 	switch {
 	case err == nil:
@@ -72,6 +82,12 @@ func diagonalize(ctx context.Context, sys *spinSystem, bs *basisSet, sec *sector
 	}
 	return nil, &NumericalError{Sector: sec.label, Detail: err.Error()}
 }
+
+// denseWorkspaces holds the dense solvers' scratch memory between calls: one
+// workspace per call in flight at most, grown to the largest block it
+// served. Idle ones are freed by the garbage collector (sync.Pool), so a
+// finished task keeps none for long.
+var denseWorkspaces = sync.Pool{New: func() any { return new(eigen.Workspace) }}
 
 // workerCount returns the number of goroutines for jobs independent units.
 func workerCount(opt Options, jobs int) int {

@@ -72,9 +72,14 @@ func groupLevels(xs []labelledEnergy, tol float64, bySz bool) []Level {
 			sum[x.twoSz] += x.e
 		}
 		sort.Ints(keys)
+		first := len(out)
 		for _, t := range keys {
 			out = append(out, Level{Energy: sum[t] / float64(count[t]), Degeneracy: count[t], HasSz: true, Sz: float64(t) / 2})
 		}
+		// The means of one run differ by rounding (sectors diagonalized
+		// apart): keep the levels ascending, S^z order among equal ones.
+		run := out[first:]
+		sort.SliceStable(run, func(i, j int) bool { return run[i].Energy < run[j].Energy })
 	}
 	return out
 }

@@ -26,7 +26,11 @@ type workload struct {
 //	eigenvalues  8 bytes per state
 //	per block   n^2 * e * f, e = 8 (real) or 16 (complex); f = 1.2 for
 //	            eigenvalues only, 3 with eigenvectors (matrix, vectors, solver
-//	            work), 6 with the susceptibility's matrix elements
+//	            work: pure Go keeps the matrix and the n^2 vectors, plus the
+//	            real n^2 rotations when complex; LAPACK returns the vectors
+//	            in the matrix's place and needs 2n^2 reals of work for
+//	            dsyevd, or the n^2 complex Z of zheevr), 6 with the
+//	            susceptibility's matrix elements
 //
 // summed over the k blocks that are in flight at once.
 func (w workload) memoryEstimate(k int) (need, largest int64) {
