@@ -14,6 +14,30 @@ type Job struct {
 	// when Lowest >= n), with their eigenvectors when Vectors is set; 0
 	// asks for all. Negative panics.
 	Lowest int
+	// VectorsFor, when set together with Vectors, chooses how many
+	// eigenvectors to compute once the eigenvalues are known: it is called
+	// once, with the eigenvalues the job returns (ascending; it must not
+	// keep or change the slice), and returns m, clamped to [0, len(values)];
+	// the solve then returns every one of those eigenvalues but only the
+	// eigenvectors of the lowest m, vecs being n x m. The engine uses it to
+	// skip the eigenvectors of states whose Boltzmann weight is negligible
+	// at every temperature asked for: the cost is then that of the
+	// eigenvalues (the tridiagonal reduction) plus O(n^2 m) instead of the
+	// O(n^3) of every eigenvector. nil computes them all.
+	VectorsFor func(values []float64) int
+}
+
+// vectorCount returns the number of eigenvectors a job computes for the k
+// eigenvalues values: 0 without Vectors, k without VectorsFor, else
+// VectorsFor(values) clamped to [0, k].
+func (j Job) vectorCount(values []float64) int {
+	switch {
+	case !j.Vectors:
+		return 0
+	case j.VectorsFor == nil:
+		return len(values)
+	}
+	return max(0, min(len(values), j.VectorsFor(values)))
 }
 
 // count returns the number of eigenvalues a job returns for order n.
@@ -36,11 +60,12 @@ func (j Job) count(n int) int {
 // destroyed. Hermitian does the same for the complex Hermitian a, of which
 // it also ignores the imaginary part of the diagonal. With k =
 // job.count(n) (n, or job.Lowest when that is smaller), both return the
-// k smallest eigenvalues ascending and, when job.Vectors is set, their
-// eigenvectors as the columns of a row-major n x k matrix, vecs[i*k+j] the
-// i-th component of the eigenvector of values[j]:
+// k smallest eigenvalues ascending and, when job.Vectors is set, the
+// eigenvectors of the lowest m of them (m = k, or what job.VectorsFor
+// chose) as the columns of a row-major n x m matrix, vecs[i*m+j] the i-th
+// component of the eigenvector of values[j]:
 //
-//	A vecs[:,j] = values[j] vecs[:,j],   vecs^H vecs = I (k x k).
+//	A vecs[:,j] = values[j] vecs[:,j],   vecs^H vecs = I (m x m).
 //
 // vecs is nil without job.Vectors; vecs may share a's storage (the LAPACK
 // backend returns the eigenvectors in a's place), never ws's. ws holds
@@ -71,11 +96,10 @@ type Backend interface {
 	Hermitian(ctx context.Context, a []complex128, n int, job Job, ws *Workspace) (values []float64, vecs []complex128, err error)
 }
 
-// PureGo is the pure-Go backend: this package's Householder reductions and
-// QL/QR iterations (see the package documentation). It computes the whole
-// spectrum (and every eigenvector) also for a job with Lowest set, and then
-// keeps the lowest part: the subset saves memory in the result, not time.
-// It polls ctx every few milliseconds of work.
+// PureGo is the pure-Go backend: this package's Householder reductions,
+// QL/QR iterations and, for a subset of the eigenvectors, inverse iteration
+// (see the package documentation). It polls ctx every few milliseconds of
+// work.
 var PureGo Backend = pureGo{}
 
 // Solver is Default().Name(): the dense backend of this build, as the
@@ -88,33 +112,23 @@ func (pureGo) Name() string { return pureGoName }
 
 func (pureGo) Symmetric(ctx context.Context, a []float64, n int, job Job, ws *Workspace) ([]float64, []float64, error) {
 	checkArgs("Symmetric", len(a), n)
-	k := job.count(n)
-	values, vecs, err := symmetricPureGo(ctx, a, n, job.Vectors)
-	if err != nil || k == n {
-		return values, vecs, err
-	}
-	return values[:k:k], leadingColumns(vecs, n, k), nil
+	return symmetricPureGo(ctx, a, n, job, job.count(n), ws)
 }
 
 func (pureGo) Hermitian(ctx context.Context, a []complex128, n int, job Job, ws *Workspace) ([]float64, []complex128, error) {
 	checkArgs("Hermitian", len(a), n)
-	k := job.count(n)
-	values, vecs, err := hermitianPureGo(ctx, a, n, job.Vectors, ws)
-	if err != nil || k == n {
-		return values, vecs, err
-	}
-	return values[:k:k], leadingColumns(vecs, n, k), nil
+	return hermitianPureGo(ctx, a, n, job, job.count(n), ws)
 }
 
-// leadingColumns returns the first k columns of the row-major n x n matrix v
-// as a new row-major n x k matrix (nil for nil v).
-func leadingColumns[T float64 | complex128](v []T, n, k int) []T {
+// leadingColumns returns the first k columns of the row-major n x c matrix
+// v as a new row-major n x k matrix (nil for nil v).
+func leadingColumns[T float64 | complex128](v []T, n, c, k int) []T {
 	if v == nil {
 		return nil
 	}
 	out := make([]T, n*k)
 	for i := 0; i < n; i++ {
-		copy(out[i*k:(i+1)*k], v[i*n:i*n+k])
+		copy(out[i*k:(i+1)*k], v[i*c:i*c+k])
 	}
 	return out
 }

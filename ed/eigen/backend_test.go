@@ -147,29 +147,35 @@ func TestLowest(t *testing.T) {
 			ac := fromSpectrum(randUnitary(n, 6, isReal), spec)
 			for _, k := range []int{3, 6, 7, 9} {
 				name := fmt.Sprintf("degenerate real=%v lowest=%d", isReal, k)
-				job := Job{Vectors: true, Lowest: k}
-				var vals []float64
-				var vecs []complex128
-				var err error
-				if isReal {
-					ar := make([]float64, n*n)
-					for i := range ar {
-						ar[i] = real(ac[i])
-					}
-					var rv []float64
-					vals, rv, err = be.Symmetric(ctx, ar, n, job, &ws)
-					vecs = toComplex(rv)
-				} else {
-					vals, vecs, err = be.Hermitian(ctx, slices.Clone(ac), n, job, &ws)
-				}
-				if err != nil {
-					t.Fatalf("%s: %v", name, err)
-				}
+				vals, vecs := solveAs(t, name, be, ac, n, isReal, Job{Vectors: true, Lowest: k}, &ws)
 				matchValues(t, name, vals, want, k, 1e-3)
 				checkPairs(t, name, ac, n, vals, vecs, 1e-13)
 			}
 		}
 	})
+}
+
+// solveAs solves the Hermitian ac (real when isReal: then its real part, by
+// Symmetric) with job on be, and returns the eigenvectors as complex.
+func solveAs(t *testing.T, name string, be Backend, ac []complex128, n int, isReal bool, job Job, ws *Workspace) ([]float64, []complex128) {
+	t.Helper()
+	ctx := context.Background()
+	if !isReal {
+		vals, vecs, err := be.Hermitian(ctx, slices.Clone(ac), n, job, ws)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		return vals, vecs
+	}
+	ar := make([]float64, n*n)
+	for i := range ar {
+		ar[i] = real(ac[i])
+	}
+	vals, rv, err := be.Symmetric(ctx, ar, n, job, ws)
+	if err != nil {
+		t.Fatalf("%s: %v", name, err)
+	}
+	return vals, toComplex(rv)
 }
 
 // matchValues checks that got is the lowest k of ref to 1e-10 scale.

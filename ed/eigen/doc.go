@@ -63,8 +63,18 @@
 // back-transformation 8n^3. Memory beyond a, with vectors: the n^2 result
 // (real), or the real n^2 Z and the complex n^2 result (complex); values
 // only: O(n). The large steps of the reductions, of the rotations and of the
-// back-transformations run on up to GOMAXPROCS goroutines. A subset
-// (Job.Lowest) costs as much as the whole spectrum: it is cut from it.
+// back-transformations run on up to GOMAXPROCS goroutines.
+//
+// A subset of the eigenvectors (Job.VectorsFor, or Job.Lowest = k < n with
+// vectors) takes the eigenvalues from sterf on copies of T, chooses m, and
+// computes only m eigenvectors of T by inverse iteration (stein.go, after
+// LAPACK's dstein: unreduced blocks, LU with partial pivoting, clusters
+// reorthogonalized, a residual check), then V = Q Z for the n x m Z alone
+// (8n^2 m complex, 2n^2 m real flops). Where the clusters would cost more
+// than QL (steinMaxPairs), or where inverse iteration fails, the QL
+// iteration gives Z instead and only its m columns are back-transformed.
+// The cost is then the reduction plus O(n^2 m): at n = 4000 complex, 21.9 s
+// for 50 vectors against 21.1 s for the eigenvalues and 76 s for all.
 //
 // # The LAPACK backend
 //
@@ -87,6 +97,9 @@
 //	                          0.037 s vectors, against 0.050 s and 0.11 s
 //	                          for the whole real spectrum); beyond, the
 //	                          whole spectrum is cut to k
+//	vectors chosen from the   dsytrd / zhetrd, dsterf, dstemr (il = 1,
+//	eigenvalues (VectorsFor)  iu = m; dstebz and dstein where it fails),
+//	                          dormtr / zunmtr on the n x m Z
 //
 // The row-major lower triangle is, read column-major, the upper triangle of
 // A^T = conj(A); it is passed as is with uplo = U, and the eigenvectors of

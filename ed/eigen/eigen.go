@@ -7,7 +7,7 @@ import (
 )
 
 // pureGoName is the Name of PureGo.
-const pureGoName = "pure Go (blocked row-wise Householder tridiagonalization, real and complex Hermitian; root-free QL/QR (dsterf) for values; implicit QL/QR with row-wise deferred rotations for eigenvectors; cancellable)"
+const pureGoName = "pure Go (blocked row-wise Householder tridiagonalization, real and complex Hermitian; root-free QL/QR (dsterf) for values; implicit QL/QR with row-wise deferred rotations for eigenvectors; inverse iteration for a subset of them; cancellable)"
 
 // Scaling thresholds: a matrix whose largest entry lies outside
 // [scaleMin, scaleMax] is scaled into range first (and the eigenvalues
@@ -37,11 +37,19 @@ func scaleFactor(anorm float64) float64 {
 	return 1
 }
 
-// symmetricPureGo is PureGo's SymmetricContext (all eigenvalues, and all
-// eigenvectors when vectors): values only, sytrd (T = Q^T A Q) and sterf;
-// vectors, sytrd, formQ (the explicit Q) and tridiagQL rotating Q into the
-// eigenvectors. vecs is freshly allocated (it never shares a's storage).
-func symmetricPureGo(ctx context.Context, a []float64, n int, vectors bool) (values []float64, vecs []float64, err error) {
+// symmetricPureGo is PureGo's Symmetric for the job, k = job.count(n)
+// eigenvalues: sytrd (T = Q^T A Q), then
+//
+//   - values only: sterf on T;
+//   - every eigenvector (Vectors, no VectorsFor, k = n): formQ (the
+//     explicit Q) and tridiagQL rotating Q into the eigenvectors, the
+//     eigenvalues tridiagQL's;
+//   - a subset of the eigenvectors (VectorsFor set, or k < n):
+//     symmetricSubset, the eigenvalues sterf's, those of the values-only
+//     path.
+//
+// vecs is freshly allocated (it never shares a's storage, nor ws's).
+func symmetricPureGo(ctx context.Context, a []float64, n int, job Job, k int, ws *Workspace) (values []float64, vecs []float64, err error) {
 	if probeEnabled {
 		probe()
 		defer probe()
@@ -50,10 +58,12 @@ func symmetricPureGo(ctx context.Context, a []float64, n int, vectors bool) (val
 		return nil, nil, err
 	}
 	if n == 0 {
-		if vectors {
+		values = []float64{}
+		if job.Vectors {
+			job.vectorCount(values)
 			vecs = []float64{}
 		}
-		return []float64{}, vecs, nil
+		return values, vecs, nil
 	}
 	s, release := watch(ctx)
 	defer release()
@@ -70,10 +80,11 @@ func symmetricPureGo(ctx context.Context, a []float64, n int, vectors bool) (val
 		return nil, nil, fmt.Errorf("%w: non-finite matrix entry", ErrNoConvergence)
 	}
 	if n == 1 {
-		if vectors {
-			vecs = []float64{1}
+		values = []float64{a[0]}
+		if job.Vectors {
+			vecs = []float64{1}[:job.vectorCount(values)]
 		}
-		return []float64{a[0]}, vecs, nil
+		return values, vecs, nil
 	}
 	sigma := scaleFactor(anorm)
 	if sigma != 1 {
@@ -88,16 +99,23 @@ func symmetricPureGo(ctx context.Context, a []float64, n int, vectors bool) (val
 	d := make([]float64, n)
 	e := make([]float64, n-1)
 	tau := make([]float64, n)
-	err = sytrd(a, n, d, e, tau, s)
-	if err == nil {
-		if vectors {
-			vecs, err = formQ(a, n, tau, s)
-			if err == nil {
-				err = tridiagQL(d, e, vecs, n, n, s)
-			}
-		} else {
-			err = tridiagValues(d, e, s)
+	if err := sytrd(a, n, d, e, tau, s); err != nil {
+		return nil, nil, solveErr(ctx, err)
+	}
+	if job.Vectors && (job.VectorsFor != nil || k < n) {
+		values, vecs, err = symmetricSubset(a, n, d, e, tau, job, k, sigma, ws, s)
+		if err != nil {
+			return nil, nil, stageErr(ctx, err)
 		}
+		return values, vecs, nil
+	}
+	if job.Vectors {
+		vecs, err = formQ(a, n, tau, s)
+		if err == nil {
+			err = tridiagQL(d, e, vecs, n, n, s)
+		}
+	} else {
+		err = tridiagValues(d, e, s)
 	}
 	if err != nil {
 		return nil, nil, solveErr(ctx, err)
@@ -107,14 +125,16 @@ func symmetricPureGo(ctx context.Context, a []float64, n int, vectors bool) (val
 			d[i] /= sigma
 		}
 	}
-	return d, vecs, nil
+	return d[:k:k], vecs, nil
 }
 
-// hermitianPureGo is PureGo's HermitianContext: hetrd reduces A to a real
-// tridiagonal T = Q^H A Q; values only, sterf on T; vectors, tridiagQL on T
-// from Z = I (Z in ws), then V = Q Z by backTransform. No real 2n x 2n
-// embedding is formed. vecs is freshly allocated.
-func hermitianPureGo(ctx context.Context, a []complex128, n int, vectors bool, ws *Workspace) (values []float64, vecs []complex128, err error) {
+// hermitianPureGo is PureGo's Hermitian for the job, k = job.count(n):
+// hetrd reduces A to a real tridiagonal T = Q^H A Q; values only, sterf on
+// T; every eigenvector, tridiagQL on T from Z = I (Z in ws), then V = Q Z by
+// backTransform; a subset of the eigenvectors (VectorsFor set, or k < n),
+// hermitianSubset. No real 2n x 2n embedding is formed. vecs is freshly
+// allocated.
+func hermitianPureGo(ctx context.Context, a []complex128, n int, job Job, k int, ws *Workspace) (values []float64, vecs []complex128, err error) {
 	if probeEnabled {
 		probe()
 		defer probe()
@@ -123,10 +143,12 @@ func hermitianPureGo(ctx context.Context, a []complex128, n int, vectors bool, w
 		return nil, nil, err
 	}
 	if n == 0 {
-		if vectors {
+		values = []float64{}
+		if job.Vectors {
+			job.vectorCount(values)
 			vecs = []complex128{}
 		}
-		return []float64{}, vecs, nil
+		return values, vecs, nil
 	}
 	s, release := watch(ctx)
 	defer release()
@@ -145,10 +167,11 @@ func hermitianPureGo(ctx context.Context, a []complex128, n int, vectors bool, w
 		return nil, nil, fmt.Errorf("%w: non-finite matrix entry", ErrNoConvergence)
 	}
 	if n == 1 {
-		if vectors {
-			vecs = []complex128{1}
+		values = []float64{real(a[0])}
+		if job.Vectors {
+			vecs = []complex128{1}[:job.vectorCount(values)]
 		}
-		return []float64{real(a[0])}, vecs, nil
+		return values, vecs, nil
 	}
 	sigma := scaleFactor(anorm)
 	if sigma != 1 {
@@ -164,21 +187,27 @@ func hermitianPureGo(ctx context.Context, a []complex128, n int, vectors bool, w
 	d := make([]float64, n)
 	e := make([]float64, n-1)
 	tau := make([]complex128, n)
-	err = hetrd(a, n, d, e, tau, s)
-	if err == nil {
-		if vectors {
-			z := ws.floats(n * n)
-			clear(z)
-			for i := 0; i < n; i++ {
-				z[i*n+i] = 1
-			}
-			err = tridiagQL(d, e, z, n, n, s)
-			if err == nil {
-				vecs, err = backTransform(a, n, tau, z, s)
-			}
-		} else {
-			err = tridiagValues(d, e, s)
+	if err := hetrd(a, n, d, e, tau, s); err != nil {
+		return nil, nil, solveErr(ctx, err)
+	}
+	if job.Vectors && (job.VectorsFor != nil || k < n) {
+		values, vecs, err = hermitianSubset(a, n, d, e, tau, job, k, sigma, ws, s)
+		if err != nil {
+			return nil, nil, stageErr(ctx, err)
 		}
+		return values, vecs, nil
+	}
+	if job.Vectors {
+		var z []float64
+		z, err = identityInto(ws.floats(n*n), n, s)
+		if err == nil {
+			err = tridiagQL(d, e, z, n, n, s)
+		}
+		if err == nil {
+			vecs, err = backTransform(a, n, tau, z, s)
+		}
+	} else {
+		err = tridiagValues(d, e, s)
 	}
 	if err != nil {
 		return nil, nil, solveErr(ctx, err)
@@ -188,7 +217,7 @@ func hermitianPureGo(ctx context.Context, a []complex128, n int, vectors bool, w
 			d[i] /= sigma
 		}
 	}
-	return d, vecs, nil
+	return d[:k:k], vecs, nil
 }
 
 // solveErr maps a stage's error to the exported one: errStopped (the stopper

@@ -35,6 +35,8 @@ import (
 //	the lowest k (Job.Lowest),   dsyevr / zheevr, range = I, il = 1,
 //	  k <= n/10 (values) or        iu = k (bisection, and inverse
 //	  k <= n/6 (vectors)           iteration for the vectors)
+//	vectors chosen by VectorsFor dsytrd / zhetrd, dsterf, dstemr (il = 1,
+//	                             iu = m), dormtr / zunmtr (lapack_subset.go)
 //
 // A larger subset is cut from the whole spectrum. The row-major lower
 // triangle that the API takes is, read column-major, the upper triangle of
@@ -63,7 +65,7 @@ var lapackName struct {
 func (lapackBackend) Name() string {
 	lapackName.once.Do(func() {
 		cfg := strings.TrimSpace(C.GoString(C.openblas_get_config()))
-		lapackName.s = "LAPACK through cgo (LAPACKE over " + cfg + "): dsyevd/zheevd for every eigenvalue (jobz N), dsyevd (divide and conquer) / zheevr (MRRR) for every eigenvector, dsyevr/zheevr (il..iu) for the lowest k; OpenBLAS threads: min(GOMAXPROCS, its own) for n >= 256, one at a time, 1 below, side by side; cancellable between calls only"
+		lapackName.s = "LAPACK through cgo (LAPACKE over " + cfg + "): dsyevd/zheevd for every eigenvalue (jobz N), dsyevd (divide and conquer) / zheevr (MRRR) for every eigenvector, dsyevr/zheevr (il..iu) for the lowest k; dsytrd/zhetrd, dsterf, dstemr and dormtr/zunmtr for eigenvectors chosen from the eigenvalues; OpenBLAS threads: min(GOMAXPROCS, its own) for n >= 256, one at a time, 1 below, side by side; cancellable between calls only"
 	})
 	return lapackName.s
 }
@@ -199,10 +201,20 @@ func symmetricLAPACK(ctx context.Context, a []float64, n int, job Job, ws *Works
 		}
 		return emptyResult[float64](job.Vectors)
 	}
+	if job.Vectors && job.VectorsFor != nil && n < subsetMinOrder {
+		w, vecs, err := symmetricLAPACK(ctx, a, n, Job{Vectors: true, Lowest: job.Lowest}, ws, r)
+		if err != nil {
+			return nil, nil, err
+		}
+		return w, leadingColumns(vecs, n, len(w), job.vectorCount(w)), nil
+	}
 	if r == routineAuto {
 		r = chooseRoutine(false, n, k, job.Vectors)
 	}
 	defer blasThreads.enter(n)()
+	if job.Vectors && job.VectorsFor != nil {
+		return symmetricSubsetLAPACK(a, n, k, job, ws)
+	}
 	N := C.lapack_int(n)
 	pa := (*C.double)(unsafe.Pointer(&a[0]))
 	w := make([]float64, n)
@@ -291,6 +303,13 @@ func hermitianLAPACK(ctx context.Context, a []complex128, n int, job Job, ws *Wo
 		}
 		return emptyResult[complex128](job.Vectors)
 	}
+	if job.Vectors && job.VectorsFor != nil && n < subsetMinOrder {
+		w, vecs, err := hermitianLAPACK(ctx, a, n, Job{Vectors: true, Lowest: job.Lowest}, ws, r)
+		if err != nil {
+			return nil, nil, err
+		}
+		return w, leadingColumns(vecs, n, len(w), job.vectorCount(w)), nil
+	}
 	if r == routineAuto {
 		r = chooseRoutine(true, n, k, job.Vectors)
 	}
@@ -300,6 +319,9 @@ func hermitianLAPACK(ctx context.Context, a []complex128, n int, job Job, ws *Wo
 		a[i*n+i] = complex(real(a[i*n+i]), 0)
 	}
 	defer blasThreads.enter(n)()
+	if job.Vectors && job.VectorsFor != nil {
+		return hermitianSubsetLAPACK(a, n, k, job, ws)
+	}
 	N := C.lapack_int(n)
 	pa := (*C.complexdouble)(unsafe.Pointer(&a[0]))
 	w := make([]float64, n)

@@ -327,3 +327,11 @@ func benchLAPACK(b *testing.B, complexMatrix bool, n int, job Job, r routine) {
 		}
 	}
 }
+
+// TestVectorsForBisection is TestVectorsFor on the LAPACK backend with its
+// fallback for a failed dstemr (dstebz and dstein) forced.
+func TestVectorsForBisection(t *testing.T) {
+	forceBisection = true
+	defer func() { forceBisection = false }()
+	testVectorsFor(t, LAPACK)
+}

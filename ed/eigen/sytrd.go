@@ -2,7 +2,6 @@ package eigen
 
 import (
 	"runtime"
-	"sync"
 
 	blasgonum "gonum.org/v1/gonum/blas/gonum"
 	lapackgonum "gonum.org/v1/gonum/lapack/gonum"
@@ -220,8 +219,8 @@ func symvRows(a []float64, ld, r0, r1 int, v, p, q []float64, s *stopper) {
 // Dorgtr, for this package's storage.
 //
 // Q = Q_{n-1}(... (Q_1 I)) is built from I applying the reflectors in
-// ascending order k, backBlock at a time in compact WY form, as
-// backTransform does: for the block k0 <= k <= k1,
+// ascending order k, backBlock at a time in compact WY form (realWY and
+// applyWYReal, as backTransformReal): for the block k0 <= k <= k1,
 //
 //	P = H_{k1} ... H_{k0} = I - Y T Y^T,   Y = [v_{k1}, ..., v_{k0}],
 //
@@ -256,96 +255,13 @@ func formQ(a []float64, n int, tau []float64, s *stopper) ([]float64, error) {
 			return nil, errStopped
 		}
 		k1 := min(k0+nb-1, n-1)
-		m := k1 - k0 + 1
-		// Y (k1 x m, row-major): column r is v_{k1-r}, supported on rows
-		// 0..k1-r-1 with a unit last entry.
-		clear(y[:k1*m])
-		for r := 0; r < m; r++ {
-			kk := k1 - r
-			for i := 0; i < kk-1; i++ {
-				y[i*m+r] = a[kk*n+i]
-			}
-			y[(kk-1)*m+r] = 1
-		}
-		// T (m x m upper, row-major).
-		clear(t[:m*m])
-		for r := 0; r < m; r++ {
-			tr := tau[k1-r]
-			t[r*m+r] = tr
-			if r == 0 || tr == 0 {
-				continue
-			}
-			clear(tmp[:r])
-			for i := 0; i < k1-r; i++ {
-				daxpy(y[i*m+r], y[i*m:i*m+r], tmp[:r])
-			}
-			for sIdx := 0; sIdx < r; sIdx++ {
-				acc := 0.0
-				for q := sIdx; q < r; q++ {
-					acc += t[sIdx*m+q] * tmp[q]
-				}
-				t[sIdx*m+r] = -tr * acc
-			}
-		}
+		r := k1 - k0 + 1
+		realWY(a, n, tau, k0, k1, y, t, tmp)
 		cols := k1 // columns >= k1 of V are still unit vectors, fixed by P
 		ntiles := (cols + backTile - 1) / backTile
-		apply := func(tile int, w []float64) {
-			c0 := tile * backTile
-			c1 := min(c0+backTile, cols)
-			cw := c1 - c0
-			w = w[:m*cw]
-			clear(w)
-			// W = Y^T V
-			for i := 0; i < k1; i++ {
-				if i%pollRows == 0 && s.stopped() {
-					return
-				}
-				vrow := v[i*n+c0 : i*n+c1]
-				yrow := y[i*m : i*m+min(m, k1-i)]
-				for sIdx, ys := range yrow {
-					daxpy(ys, vrow, w[sIdx*cw:sIdx*cw+cw])
-				}
-			}
-			// W = T W (upper triangular, in place top-down)
-			for r := 0; r < m; r++ {
-				wr := w[r*cw : r*cw+cw]
-				if dg := t[r*m+r]; dg != 1 {
-					db.Dscal(cw, dg, wr, 1)
-				}
-				for sIdx := r + 1; sIdx < m; sIdx++ {
-					daxpy(t[r*m+sIdx], w[sIdx*cw:sIdx*cw+cw], wr)
-				}
-			}
-			// V -= Y W
-			for i := 0; i < k1; i++ {
-				if i%pollRows == 0 && s.stopped() {
-					return
-				}
-				vrow := v[i*n+c0 : i*n+c1]
-				yrow := y[i*m : i*m+min(m, k1-i)]
-				for sIdx, ys := range yrow {
-					daxpy(-ys, w[sIdx*cw:sIdx*cw+cw], vrow)
-				}
-			}
-		}
-		workers := min(maxWorkers, ntiles)
-		if workers <= 1 || k1*cols < 1<<15 {
-			for tile := 0; tile < ntiles; tile++ {
-				apply(tile, wbuf[0])
-			}
-			continue
-		}
-		var wg sync.WaitGroup
-		for wk := 0; wk < workers; wk++ {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				for tile := wk; tile < ntiles; tile += workers {
-					apply(tile, wbuf[wk])
-				}
-			}()
-		}
-		wg.Wait()
+		forTiles(cols, backTile, min(maxWorkers, ntiles), k1, wbuf, func(c0, c1 int, w []float64) {
+			applyWYReal(v, n, c0, c1, k1, r, y, t, w, s)
+		})
 	}
 	if s.stopped() {
 		return nil, errStopped
