@@ -54,6 +54,19 @@ type Report struct {
 	Matvecs int64
 	// Symmetry describes the symmetry sectors used beyond S^z.
 	Symmetry string
+	// Eigenvectors counts the eigenvectors the dense route computed, summed
+	// over its diagonalizations; EigenvectorsSkipped the eigenstates it
+	// solved without one, because their Boltzmann weight is negligible at
+	// every temperature of the task (see NeglectedWeight). Both are 0 where
+	// no eigenvector was needed.
+	Eigenvectors, EigenvectorsSkipped int64
+	// NeglectedWeight is the largest share of a partition function, over the
+	// fields and temperatures, that the eigenstates without eigenvectors
+	// carry: the thermal averages of the moments leave those states out, and
+	// are exact to NeglectedWeight times the largest |moment| (mu_B). It is
+	// at most 1e-15 by construction, and 0 where every eigenvector was
+	// computed.
+	NeglectedWeight float64
 }
 
 // Level is a group of degenerate eigenstates sharing their good quantum numbers.

@@ -12,13 +12,14 @@ import (
 )
 
 // sectorSpectrum is the dense diagonalization of one sector: eigenvalues
-// ascending (K) and, when asked for, the eigenvectors as the columns of a
-// row-major dim x dim matrix (real or complex).
+// ascending (K) and, when asked for, the eigenvectors of the lowest nvec of
+// them as the columns of a row-major dim x nvec matrix (real or complex).
 type sectorSpectrum struct {
 	sector *sectorBasis
 	values []float64
 	vecsR  []float64
 	vecsC  []complex128
+	nvec   int
 }
 
 // denseReal fills the real symmetric matrix of op in the sector (row-major;
@@ -62,17 +63,27 @@ func denseComplex(sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator)
 // arrays, with vectors as large as the matrix or twice that) comes from
 // denseWorkspaces, so the sectors and field points that the workers
 // diagonalize one after another reuse it instead of allocating it per call.
-func diagonalize(ctx context.Context, sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool) (*sectorSpectrum, error) {
+//
+// keep, when not nil with vectors, chooses from the eigenvalues how many of
+// the lowest get their eigenvectors (eigen.Job.VectorsFor; see
+// boltzmannVectors): the others cost nothing beyond the eigenvalues.
+func diagonalize(ctx context.Context, sys *spinSystem, bs *basisSet, sec *sectorBasis, op *operator, real, vectors bool, keep func([]float64) int) (*sectorSpectrum, error) {
 	n := sec.dim()
 	out := &sectorSpectrum{sector: sec}
 	ws := denseWorkspaces.Get().(*eigen.Workspace)
 	defer denseWorkspaces.Put(ws)
 	job := eigen.Job{Vectors: vectors}
+	if vectors {
+		job.VectorsFor = keep
+	}
 	var err error
 	if real {
 		out.values, out.vecsR, err = eigen.Default().Symmetric(ctx, denseReal(sys, bs, sec, op), n, job, ws)
 	} else {
 		out.values, out.vecsC, err = eigen.Default().Hermitian(ctx, denseComplex(sys, bs, sec, op), n, job, ws)
+	}
+	if vectors && n > 0 {
+		out.nvec = (len(out.vecsR) + len(out.vecsC)) / n
 	}
 	switch {
 	case err == nil:
@@ -181,11 +192,12 @@ func protect(i int, do func(int) error) (err error) {
 	return do(i)
 }
 
-// expectations returns <v_k|op|v_k> for every eigenvector k of the sector.
+// expectations returns <v_k|op|v_k> for every eigenvector k computed (the
+// lowest sp.nvec of the sector).
 // op must keep the sector (it conserves S^z when the sector has an Sz).
 func expectations(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) []float64 {
 	sec := sp.sector
-	n := sec.dim()
+	n := sp.nvec
 	out := make([]float64, n)
 	k := make([]int, sys.n)
 	for c, x := range sec.states {

@@ -129,9 +129,13 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 	secs := make([]sectorStates, len(bs.sectors))
 	src := bs.mirrorSources(st.flipSymmetric)
 	solve := solvedSectors(src)
-	err := parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
-		i := solve[si]
-		sp, err := diagonalize(ctx, st.sys, bs, bs.sectors[i], st.h0, p.isReal, ng > 0)
+	// The field shifts a sector's levels together, so the eigenstates whose
+	// Boltzmann weight is negligible within their sector at H0 stay so at
+	// every field: only the others get eigenvectors (boltzmannVectors).
+	keep := boltzmannVectors(req.Temperatures)
+	tally := make([]vectorTally, len(bs.sectors))
+	solveSector := func(i int, keep func([]float64) int) error {
+		sp, err := diagonalize(ctx, st.sys, bs, bs.sectors[i], st.h0, p.isReal, ng > 0, keep)
 		if err != nil {
 			return err
 		}
@@ -140,10 +144,37 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 			s.groups = append(s.groups, expectations(st.sys, bs, sp, op))
 		}
 		secs[i] = s
+		if ng > 0 {
+			tally[i] = vectorTally{computed: int64(sp.nvec), total: int64(len(sp.values))}
+		}
 		return nil
+	}
+	err := parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
+		return solveSector(solve[si], keep)
 	})
 	if err != nil {
 		return err
+	}
+	if ng > 0 {
+		var all []float64
+		for _, i := range solve {
+			all = append(all, secs[i].e...)
+		}
+		tol := levelTolerance(all)
+		for _, i := range solve {
+			share := sectorShare(secs[i].e, len(secs[i].groups[0]), req.Temperatures, tol)
+			if share > 10*boltzmannCut {
+				// A ground level wider than zeroWindow: every eigenvector.
+				if err := solveSector(i, nil); err != nil {
+					return err
+				}
+				share = 0
+			}
+			tally[i].share = share
+		}
+	}
+	for _, t := range tally {
+		p.rep.addVectors(t)
 	}
 	for i, j := range src {
 		if j < 0 {
@@ -183,7 +214,7 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 			gavg[si] = make([]float64, ng)
 			for g := 0; g < ng; g++ {
 				a := 0.0
-				for v, p := range wts {
+				for v, p := range wts[:len(s.groups[g])] {
 					a += p * s.groups[g][v]
 				}
 				gavg[si][g] = a / z
@@ -240,82 +271,115 @@ func magnetizationShortcut(ctx context.Context, p *taskPlan, req MagnetizationRe
 }
 
 func magnetizationPerField(ctx context.Context, p *taskPlan, req MagnetizationRequest, opt Options, res *MagnetizationResult) error {
-	st, isReal := p.st, p.isReal
-	ng := len(st.groups)
+	st := p.st
 	nb := len(req.Fields)
 	bs := newBasisSet(st.sys, st.conserveSz)
+	// Without the Kubo sums only the thermally populated eigenstates need
+	// their vectors (boltzmannVectors); the Kubo sums need them all.
+	var keep func([]float64) int
+	if !req.Susceptibility {
+		keep = boltzmannVectors(req.Temperatures)
+	}
+	tally := make([]vectorTally, nb)
 	err := parallel(ctx, nb, nil, opt, "diagonalize fields", func(bi int) error {
-		B := req.Fields[bi]
-		op := st.hamiltonian(B)
-		secs := make([]sectorStates, len(bs.sectors))
-		var kubo []kuboSums
-		if req.Susceptibility {
-			kubo = make([]kuboSums, len(bs.sectors))
+		t, err := magnetizationField(ctx, p, req, bs, bi, keep, res)
+		if err == nil && t.share > 10*boltzmannCut {
+			// A ground level wider than zeroWindow across sectors: redo
+			// this field with every eigenvector.
+			t, err = magnetizationField(ctx, p, req, bs, bi, nil, res)
 		}
-		var all []float64
-		for si, sec := range bs.sectors {
-			if err := ctx.Err(); err != nil {
-				return err
-			}
-			sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, true)
-			if err != nil {
-				return err
-			}
-			s := sectorStates{twoSz: sec.twoSz, e: sp.values}
-			if req.Susceptibility {
-				m2, err := momentMatrix(ctx, st.sys, bs, sp, st.moment)
-				if err != nil {
-					return err
-				}
-				s.moment = m2.diag
-				if kubo[si], err = sectorKubo(ctx, sp.values, m2, req.Temperatures); err != nil {
-					return err
-				}
-			} else {
-				s.moment = expectations(st.sys, bs, sp, st.moment)
-			}
-			for _, g := range st.groupMoment {
-				s.groups = append(s.groups, expectations(st.sys, bs, sp, g))
-			}
-			secs[si] = s
-			all = append(all, sp.values...)
-		}
-		tol := levelTolerance(all)
-		emin := math.Inf(1)
-		for _, e := range all {
-			emin = math.Min(emin, e)
-		}
-		for ti, T := range req.Temperatures {
-			var z, mm float64
-			gm := make([]float64, ng)
-			for _, s := range secs {
-				for v, p := range weights(s.e, emin, T, tol) {
-					if p == 0 {
-						continue
-					}
-					z += p
-					mm += p * s.moment[v]
-					for g := range gm {
-						gm[g] += p * s.groups[g][v]
-					}
-				}
-			}
-			// Distinct fields write distinct entries: no lock needed.
-			res.Curves[ti].Magnetization[bi] = mm / z
-			for g, name := range st.groups {
-				res.Curves[ti].Groups[name][bi] = gm[g] / z
-			}
-			if kubo != nil && T > 0 {
-				_, res.Curves[ti].Susceptibility[bi] = kuboMoment(kubo, emin, ti, T)
-			}
-		}
-		return nil
+		tally[bi] = t
+		return err
 	})
 	if err != nil {
 		return err
 	}
 	p.rep.Diagonalizations = nb * len(bs.sectors)
+	for _, t := range tally {
+		p.rep.addVectors(t)
+	}
 	return nil
+}
+
+// magnetizationField diagonalizes every sector at the field req.Fields[bi]
+// (the eigenvectors chosen by keep, nil for all) and writes the curves'
+// entries bi. It returns what it computed and left out.
+func magnetizationField(ctx context.Context, p *taskPlan, req MagnetizationRequest, bs *basisSet, bi int, keep func([]float64) int, res *MagnetizationResult) (vectorTally, error) {
+	st, isReal := p.st, p.isReal
+	ng := len(st.groups)
+	var t vectorTally
+	B := req.Fields[bi]
+	op := st.hamiltonian(B)
+	secs := make([]sectorStates, len(bs.sectors))
+	var kubo []kuboSums
+	if req.Susceptibility {
+		kubo = make([]kuboSums, len(bs.sectors))
+	}
+	var all []float64
+	for si, sec := range bs.sectors {
+		if err := ctx.Err(); err != nil {
+			return t, err
+		}
+		sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, true, keep)
+		if err != nil {
+			return t, err
+		}
+		t.computed += int64(sp.nvec)
+		t.total += int64(len(sp.values))
+		s := sectorStates{twoSz: sec.twoSz, e: sp.values}
+		if req.Susceptibility {
+			m2, err := momentMatrix(ctx, st.sys, bs, sp, st.moment)
+			if err != nil {
+				return t, err
+			}
+			s.moment = m2.diag
+			if kubo[si], err = sectorKubo(ctx, sp.values, m2, req.Temperatures); err != nil {
+				return t, err
+			}
+		} else {
+			s.moment = expectations(st.sys, bs, sp, st.moment)
+		}
+		for _, g := range st.groupMoment {
+			s.groups = append(s.groups, expectations(st.sys, bs, sp, g))
+		}
+		secs[si] = s
+		all = append(all, sp.values...)
+	}
+	tol := levelTolerance(all)
+	emin := math.Inf(1)
+	for _, e := range all {
+		emin = math.Min(emin, e)
+	}
+	for ti, T := range req.Temperatures {
+		var z, mm, left float64
+		gm := make([]float64, ng)
+		for _, s := range secs {
+			for v, p := range weights(s.e, emin, T, tol) {
+				if p == 0 {
+					continue
+				}
+				z += p
+				if v >= len(s.moment) {
+					left += p // no eigenvector (boltzmannVectors)
+					continue
+				}
+				mm += p * s.moment[v]
+				for g := range gm {
+					gm[g] += p * s.groups[g][v]
+				}
+			}
+		}
+		t.share = math.Max(t.share, left/z)
+		// Distinct fields write distinct entries: no lock needed.
+		res.Curves[ti].Magnetization[bi] = mm / z
+		for g, name := range st.groups {
+			res.Curves[ti].Groups[name][bi] = gm[g] / z
+		}
+		if kubo != nil && T > 0 {
+			_, res.Curves[ti].Susceptibility[bi] = kuboMoment(kubo, emin, ti, T)
+		}
+	}
+	return t, nil
 }
 
 // checkMagnetization validates the model and the request.
@@ -393,6 +457,9 @@ func planDirection(m *cluster.Model, req MagnetizationRequest, n [3]float64, opt
 	p.workers = workers
 	if p.analytic {
 		p.rep.Route = spectrumRoute(st, 1, true) + "; every field from the zero-field sector partition functions"
+		if len(st.groups) > 0 {
+			p.rep.Route += ", group moments from the eigenvectors of the states above 1e-15 of their sector's partition function at some temperature"
+		}
 		if req.Susceptibility {
 			p.rep.Route += ", chi from the S^z fluctuations"
 		}
@@ -401,9 +468,11 @@ func planDirection(m *cluster.Model, req MagnetizationRequest, n [3]float64, opt
 		if st.conserveSz {
 			why = "the sites' effective g values along the field differ"
 		}
-		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (" + why + "), moments from eigenvectors"
+		p.rep.Route = spectrumRoute(st, 1, false) + "; each field diagonalized (" + why + "), "
 		if req.Susceptibility {
-			p.rep.Route += ", chi with its Van Vleck part"
+			p.rep.Route += "moments from every eigenvector, chi with its Van Vleck part"
+		} else {
+			p.rep.Route += "moments from the eigenvectors of the states above 1e-15 of their sector's partition function at some temperature (every eigenvalue in Z)"
 		}
 	}
 	return p, nil

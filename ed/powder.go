@@ -250,6 +250,7 @@ func runPowder(ctx context.Context, pp *powderPlan, req MagnetizationRequest, op
 	}
 	for _, r := range results {
 		res.Report.Diagonalizations += r.Report.Diagonalizations
+		res.Report.addVectors(vectorTally{computed: r.Report.Eigenvectors, total: r.Report.Eigenvectors + r.Report.EigenvectorsSkipped, share: r.Report.NeglectedWeight})
 		for _, w := range r.Report.Warnings {
 			if !seen[w] {
 				seen[w] = true

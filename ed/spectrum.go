@@ -34,7 +34,7 @@ func Spectrum(ctx context.Context, m *cluster.Model, req SpectrumRequest, opt Op
 	src := bs.mirrorSources(st.flipSymmetric && op == st.h0)
 	solve := solvedSectors(src)
 	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(i int) error {
-		sp, err := diagonalize(ctx, st.sys, bs, bs.sectors[solve[i]], op, isReal, false)
+		sp, err := diagonalize(ctx, st.sys, bs, bs.sectors[solve[i]], op, isReal, false, nil)
 		spectra[solve[i]] = sp
 		return err
 	})

@@ -60,7 +60,7 @@ func Thermo(ctx context.Context, m *cluster.Model, req ThermoRequest, opt Option
 	err = parallel(ctx, len(solve), func(i int) int { return bs.sectors[solve[i]].dim() }, opt, "diagonalize sectors", func(si int) error {
 		i := solve[si]
 		sec := bs.sectors[i]
-		sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, kubo)
+		sp, err := diagonalize(ctx, st.sys, bs, sec, op, isReal, kubo, nil)
 		if err != nil {
 			return err
 		}
@@ -323,6 +323,9 @@ type momentElements struct {
 func momentMatrix(ctx context.Context, sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) (momentElements, error) {
 	sec := sp.sector
 	n := sec.dim()
+	if sp.nvec != n {
+		panic(fmt.Sprintf("ed: momentMatrix needs every eigenvector (%d of %d computed)", sp.nvec, n))
+	}
 	k := make([]int, sys.n)
 	out := momentElements{diag: make([]float64, n), abs2: make([]float64, n*n)}
 	impl := gonum.Implementation{}

@@ -121,17 +121,20 @@ func MagnetizationParametersToProto(r ed.MagnetizationRequest) *frustumv1.Magnet
 // ReportToProto converts the engine's report.
 func ReportToProto(r ed.Report) *frustumv1.EngineReport {
 	out := &frustumv1.EngineReport{
-		Method:           r.Method,
-		Route:            r.Route,
-		Dimension:        r.Dimension,
-		Sectors:          make([]*frustumv1.Sector, len(r.Sectors)),
-		Complex:          r.Complex,
-		MemoryBytes:      r.MemoryBytes,
-		Diagonalizations: int64(r.Diagonalizations),
-		Solver:           r.Solver,
-		Warnings:         slices.Clone(r.Warnings),
-		Matvecs:          r.Matvecs,
-		Symmetry:         r.Symmetry,
+		Method:              r.Method,
+		Route:               r.Route,
+		Dimension:           r.Dimension,
+		Sectors:             make([]*frustumv1.Sector, len(r.Sectors)),
+		Complex:             r.Complex,
+		MemoryBytes:         r.MemoryBytes,
+		Diagonalizations:    int64(r.Diagonalizations),
+		Solver:              r.Solver,
+		Warnings:            slices.Clone(r.Warnings),
+		Matvecs:             r.Matvecs,
+		Symmetry:            r.Symmetry,
+		Eigenvectors:        r.Eigenvectors,
+		EigenvectorsSkipped: r.EigenvectorsSkipped,
+		NeglectedWeight:     r.NeglectedWeight,
 	}
 	for i, s := range r.Sectors {
 		ps := &frustumv1.Sector{Label: s.Label, Dimension: int64(s.Dimension)}
@@ -147,16 +150,19 @@ func ReportToProto(r ed.Report) *frustumv1.EngineReport {
 // gives the zero report.
 func ReportFromProto(p *frustumv1.EngineReport) ed.Report {
 	out := ed.Report{
-		Method:           p.GetMethod(),
-		Route:            p.GetRoute(),
-		Dimension:        p.GetDimension(),
-		Complex:          p.GetComplex(),
-		MemoryBytes:      p.GetMemoryBytes(),
-		Diagonalizations: int(p.GetDiagonalizations()),
-		Solver:           p.GetSolver(),
-		Warnings:         slices.Clone(p.GetWarnings()),
-		Matvecs:          p.GetMatvecs(),
-		Symmetry:         p.GetSymmetry(),
+		Method:              p.GetMethod(),
+		Route:               p.GetRoute(),
+		Dimension:           p.GetDimension(),
+		Complex:             p.GetComplex(),
+		MemoryBytes:         p.GetMemoryBytes(),
+		Diagonalizations:    int(p.GetDiagonalizations()),
+		Solver:              p.GetSolver(),
+		Warnings:            slices.Clone(p.GetWarnings()),
+		Matvecs:             p.GetMatvecs(),
+		Symmetry:            p.GetSymmetry(),
+		Eigenvectors:        p.GetEigenvectors(),
+		EigenvectorsSkipped: p.GetEigenvectorsSkipped(),
+		NeglectedWeight:     p.GetNeglectedWeight(),
 	}
 	for _, s := range p.GetSectors() {
 		out.Sectors = append(out.Sectors, ed.Sector{

@@ -19,11 +19,14 @@ func sampleReport() ed.Report {
 			{Label: "Sz=1/2", HasSz: true, Sz: 0.5, Dimension: 3},
 			{Label: "all states", Dimension: 2},
 		},
-		Complex:          true,
-		MemoryBytes:      12345,
-		Diagonalizations: 3,
-		Solver:           "test solver",
-		Warnings:         []string{"first", "second"},
+		Complex:             true,
+		MemoryBytes:         12345,
+		Diagonalizations:    3,
+		Solver:              "test solver",
+		Warnings:            []string{"first", "second"},
+		Eigenvectors:        40,
+		EigenvectorsSkipped: 7,
+		NeglectedWeight:     3e-16,
 	}
 }
 

@@ -64,7 +64,8 @@ func TestJSONFieldNames(t *testing.T) {
 	wantKeys(t, "SpectrumResult", spec, "clusterName", "field", "energies", "levels", "truncated", "totalStates", "engine", "residuals", "groundState")
 	wantKeys(t, "Level", object(t, firstOf(t, spec["levels"])), "energy", "degeneracy", "sz", "totalSpin")
 	wantKeys(t, "EngineReport", object(t, spec["engine"]), "method", "route", "dimension", "sectors", "complex",
-		"memoryBytes", "diagonalizations", "solver", "warnings", "matvecs", "symmetry")
+		"memoryBytes", "diagonalizations", "solver", "warnings", "matvecs", "symmetry",
+		"eigenvectors", "eigenvectorsSkipped", "neglectedWeight")
 	wantKeys(t, "Sector", object(t, firstOf(t, object(t, spec["engine"])["sectors"])), "label", "sz", "dimension")
 
 	thermo := keysOf(t, ThermoResultToProto("x", &ed.ThermoResult{Temperature: []float64{1}}))

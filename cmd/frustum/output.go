@@ -414,6 +414,10 @@ func report(w io.Writer, e *frustumv1.EngineReport) error {
 	if e.GetSolver() != "" {
 		fmt.Fprintf(w, "Solver: %s\n", oneLine(e.GetSolver()))
 	}
+	if n := e.GetEigenvectorsSkipped(); n > 0 {
+		fmt.Fprintf(w, "Eigenvectors: %d computed, %d skipped (those states carry at most %.1e of the partition function)\n",
+			e.GetEigenvectors(), n, e.GetNeglectedWeight())
+	}
 	for _, warning := range e.GetWarnings() {
 		fmt.Fprintf(w, "Warning: %s\n", oneLine(warning))
 	}

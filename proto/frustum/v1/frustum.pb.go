@@ -909,9 +909,23 @@ type EngineReport struct {
 	Matvecs int64 `protobuf:"varint,11,opt,name=matvecs,proto3" json:"matvecs,omitempty"`
 	// symmetry: the sectors used beyond S^z (an abelian group of site
 	// permutations, spin inversion), or "no spatial symmetry".
-	Symmetry      string `protobuf:"bytes,12,opt,name=symmetry,proto3" json:"symmetry,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Symmetry string `protobuf:"bytes,12,opt,name=symmetry,proto3" json:"symmetry,omitempty"`
+	// eigenvectors counts the eigenvectors the dense route computed, summed
+	// over its diagonalizations; eigenvectors_skipped counts the eigenstates
+	// it solved without one because their Boltzmann weight is negligible at
+	// every temperature of the task (see neglected_weight). Both are 0 where
+	// no eigenvector was needed.
+	Eigenvectors        int64 `protobuf:"varint,13,opt,name=eigenvectors,proto3" json:"eigenvectors,omitempty"`
+	EigenvectorsSkipped int64 `protobuf:"varint,14,opt,name=eigenvectors_skipped,json=eigenvectorsSkipped,proto3" json:"eigenvectors_skipped,omitempty"`
+	// neglected_weight is the largest share of a partition function, over the
+	// fields and temperatures, carried by the eigenstates without
+	// eigenvectors: the thermal averages of the moments leave those states
+	// out (the partition function keeps every eigenvalue), so they are exact
+	// to neglected_weight times the largest |moment| (mu_B). At most 1e-15 by
+	// construction; 0 where every eigenvector was computed.
+	NeglectedWeight float64 `protobuf:"fixed64,15,opt,name=neglected_weight,json=neglectedWeight,proto3" json:"neglected_weight,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
 }
 
 func (x *EngineReport) Reset() {
@@ -1019,6 +1033,27 @@ func (x *EngineReport) GetSymmetry() string {
 		return x.Symmetry
 	}
 	return ""
+}
+
+func (x *EngineReport) GetEigenvectors() int64 {
+	if x != nil {
+		return x.Eigenvectors
+	}
+	return 0
+}
+
+func (x *EngineReport) GetEigenvectorsSkipped() int64 {
+	if x != nil {
+		return x.EigenvectorsSkipped
+	}
+	return 0
+}
+
+func (x *EngineReport) GetNeglectedWeight() float64 {
+	if x != nil {
+		return x.NeglectedWeight
+	}
+	return 0
 }
 
 // Level is a group of degenerate eigenstates.
@@ -2824,7 +2859,7 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x05label\x18\x01 \x01(\tR\x05label\x12\x13\n" +
 	"\x02sz\x18\x02 \x01(\x01H\x00R\x02sz\x88\x01\x01\x12\x1c\n" +
 	"\tdimension\x18\x03 \x01(\x03R\tdimensionB\x05\n" +
-	"\x03_sz\"\xe1\x02\n" +
+	"\x03_sz\"\xe3\x03\n" +
 	"\fEngineReport\x12\x16\n" +
 	"\x06method\x18\x01 \x01(\tR\x06method\x12\x14\n" +
 	"\x05route\x18\x02 \x01(\tR\x05route\x12\x1c\n" +
@@ -2836,7 +2871,10 @@ const file_frustum_v1_frustum_proto_rawDesc = "" +
 	"\x06solver\x18\b \x01(\tR\x06solver\x12\x1a\n" +
 	"\bwarnings\x18\t \x03(\tR\bwarnings\x12\x18\n" +
 	"\amatvecs\x18\v \x01(\x03R\amatvecs\x12\x1a\n" +
-	"\bsymmetry\x18\f \x01(\tR\bsymmetryJ\x04\b\n" +
+	"\bsymmetry\x18\f \x01(\tR\bsymmetry\x12\"\n" +
+	"\feigenvectors\x18\r \x01(\x03R\feigenvectors\x121\n" +
+	"\x14eigenvectors_skipped\x18\x0e \x01(\x03R\x13eigenvectorsSkipped\x12)\n" +
+	"\x10neglected_weight\x18\x0f \x01(\x01R\x0fneglectedWeightJ\x04\b\n" +
 	"\x10\v\"\x8e\x01\n" +
 	"\x05Level\x12\x16\n" +
 	"\x06energy\x18\x01 \x01(\x01R\x06energy\x12\x1e\n" +
