@@ -415,7 +415,7 @@ func report(w io.Writer, e *frustumv1.EngineReport) error {
 		fmt.Fprintf(w, "Solver: %s\n", oneLine(e.GetSolver()))
 	}
 	if n := e.GetEigenvectorsSkipped(); n > 0 {
-		fmt.Fprintf(w, "Eigenvectors: %d computed, %d skipped (those states carry at most %.1e of the partition function)\n",
+		fmt.Fprintf(w, "Eigenvectors: %d computed, %d skipped (those states carry at most %.1e of their sector's partition function; the moments leave them out)\n",
 			e.GetEigenvectors(), n, e.GetNeglectedWeight())
 	}
 	for _, warning := range e.GetWarnings() {
