@@ -7,6 +7,7 @@ import (
 	"math"
 	"math/cmplx"
 	"math/rand/v2"
+	"strings"
 
 	"frustum/cluster"
 	"frustum/ed/eigen"
@@ -185,7 +186,8 @@ func ftlmSectorBytes(mem hilbert.Memory, opts FTLMOptions, csr, observable bool)
 
 // report starts the engine report of the FTLM route.
 func (fp *ftlmPlan) report(dimension int64) Report {
-	solver := fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense", fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0))
+	solver := fmt.Sprintf("plain Lanczos, %d random vectors of %d steps per sector; sectors of at most %d states dense (%s)",
+		fp.opts.Vectors, fp.opts.Steps, max(fp.opts.ExactBelow, 0), strings.SplitN(eigen.Solver, " (", 2)[0])
 	if fp.perField {
 		solver += "; M from the moment's weights <r|psi_j><psi_j|M_n|r> of the same recurrences"
 	}
