@@ -56,6 +56,13 @@ def engine_dict(report) -> Dict[str, Any]:
         "diagonalizations": int(report.diagonalizations),
         "solver": report.solver,
         "warnings": list(report.warnings),
+        "matvecs": int(report.matvecs),
+        "symmetry": report.symmetry,
+        # Eigenvectors computed and skipped (negligible Boltzmann weight),
+        # and the largest share of a partition function the skipped carry.
+        "eigenvectors": int(report.eigenvectors),
+        "eigenvectors_skipped": int(report.eigenvectors_skipped),
+        "neglected_weight": float(report.neglected_weight),
     }
 
 

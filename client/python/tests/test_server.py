@@ -123,6 +123,9 @@ class Tasks(unittest.TestCase):
         self.assertAlmostEqual(m.saturation, 2.0, places=12)
         self.assertEqual(m.group_saturation, {"left": 1.0, "right": 1.0})
         self.assertEqual(m.engine["method"], "full diagonalization")
+        self.assertLessEqual(m.engine["neglected_weight"], 1e-15)
+        self.assertGreater(m.engine["eigenvectors"], 0)  # the group moments need them
+        self.assertGreaterEqual(m.engine["eigenvectors_skipped"], 0)
         df = m.to_dataframe()
         self.assertEqual(list(df.columns), ["T_K", "B_T", "M_muB", "chi_muB_per_T", "M_left_muB", "M_right_muB"])
         self.assertEqual(len(df), 64)
