@@ -150,14 +150,23 @@ func su2Levels(ms []multiplet, h float64, tol float64) []Level {
 			}
 		}
 	}
-	sort.SliceStable(out, func(i, j int) bool {
-		if math.Abs(out[i].Energy-out[j].Energy) > tol {
-			return out[i].Energy < out[j].Energy
+	// Ascending energy, and within each run of levels within tol of the
+	// run's first, ascending S, then S^z. (A comparison that calls levels
+	// within tol equal is not transitive, so it cannot drive the sort.)
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Energy < out[j].Energy })
+	for i := 0; i < len(out); {
+		j := i + 1
+		for j < len(out) && out[j].Energy-out[i].Energy <= tol {
+			j++
 		}
-		if out[i].TotalSpin != out[j].TotalSpin {
-			return out[i].TotalSpin < out[j].TotalSpin
-		}
-		return out[i].Sz < out[j].Sz
-	})
+		run := out[i:j]
+		sort.SliceStable(run, func(a, b int) bool {
+			if run[a].TotalSpin != run[b].TotalSpin {
+				return run[a].TotalSpin < run[b].TotalSpin
+			}
+			return run[a].Sz < run[b].Sz
+		})
+		i = j
+	}
 	return out
 }
