@@ -68,7 +68,11 @@ func boltzmannVectors(temps []float64) func(e []float64) int {
 // boltzmannVectors keeps for T = 0: 1e-6 max(1, |e|), a thousand times the
 // level tolerance (levelTolerance) that the T = 0 average applies across all
 // sectors, so that a ground level split by rounding is never cut.
-func zeroWindow(e []float64) float64 { return 1000 * levelTolerance(e) }
+func zeroWindow(e []float64) float64 { return zeroWindowFactor * levelTolerance(e) }
+
+// zeroWindowFactor is zeroWindow's multiple of the level tolerance (a
+// variable for the test of the recomputation).
+var zeroWindowFactor = 1000.0
 
 // vectorTally counts, over some dense solves, the eigenvectors computed and
 // the eigenstates solved, and the largest share of a partition function

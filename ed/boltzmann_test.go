@@ -206,3 +206,35 @@ func TestBoltzmannVectorsRule(t *testing.T) {
 		t.Errorf("empty spectrum: m = %d", got)
 	}
 }
+
+// TestBoltzmannVectorsRedo narrows the T = 0 window to nothing, so that the
+// two-fold ground level of free spins with one spin that feels no field (its
+// g tensor has n^T g = 0) loses its second eigenvector: the field must be
+// recomputed with every eigenvector (the report counts them all, with
+// nothing neglected) and still match the closed form (freeSpinMoment's
+// sources).
+func TestBoltzmannVectorsRedo(t *testing.T) {
+	defer func(f float64) { zeroWindowFactor = f }(zeroWindowFactor)
+	zeroWindowFactor = 0
+	gs := [][9]float64{
+		{2.1, 0.3, 0, 0.3, 1.9, 0.2, 0, 0.2, 2.3},
+		{0, 0, 0, 0, 2, 0, 0, 0, 2}, // no moment along x
+		{2.5, 0, 0.3, 0, 2.0, -0.3, 0.3, -0.3, 1.7},
+	}
+	m := freeSpins(6, gs, nil)
+	n := [3]float64{1, 0, 0}
+	res, err := Magnetization(context.Background(), m, MagnetizationRequest{Temperatures: []float64{0}, Fields: []float64{3}, Direction: n}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := 0.0
+	for i := range m.Sites {
+		want += freeSpinMoment(gs[i%3], n, 3, 0)
+	}
+	if got := res.Curves[0].Magnetization[0]; math.Abs(got-want) > 1e-10 {
+		t.Errorf("M = %.12f, closed form %.12f", got, want)
+	}
+	if r := res.Report; r.EigenvectorsSkipped != 0 || r.Eigenvectors != 64 || r.NeglectedWeight != 0 {
+		t.Errorf("report: %d eigenvectors, %d skipped, neglected %g; want the redo's 64, 0, 0", r.Eigenvectors, r.EigenvectorsSkipped, r.NeglectedWeight)
+	}
+}
