@@ -197,21 +197,22 @@ func protect(i int, do func(int) error) (err error) {
 // op must keep the sector (it conserves S^z when the sector has an Sz).
 func expectations(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operator) []float64 {
 	sec := sp.sector
-	n := sp.nvec
-	out := make([]float64, n)
+	nv := sp.nvec // columns of the row-major eigenvector matrix
+	out := make([]float64, nv)
 	k := make([]int, sys.n)
 	for c, x := range sec.states {
 		sys.digits(x, k)
 		d := op.diagonal(sys, k)
 		if sp.vecsR != nil {
-			row := sp.vecsR[c*n : (c+1)*n]
+			row := sp.vecsR[c*nv : (c+1)*nv]
 			if d != 0 {
 				for j, u := range row {
 					out[j] += d * u * u
 				}
 			}
 			op.apply(sys, x, k, func(y int64, amp complex128) {
-				ry := sp.vecsR[bs.index(y)*n : (bs.index(y)+1)*n]
+				iy := bs.index(y)
+				ry := sp.vecsR[iy*nv : (iy+1)*nv]
 				a := real(amp)
 				for j, u := range row {
 					out[j] += a * ry[j] * u
@@ -219,14 +220,15 @@ func expectations(sys *spinSystem, bs *basisSet, sp *sectorSpectrum, op *operato
 			})
 			continue
 		}
-		row := sp.vecsC[c*n : (c+1)*n]
+		row := sp.vecsC[c*nv : (c+1)*nv]
 		if d != 0 {
 			for j, u := range row {
 				out[j] += d * (real(u)*real(u) + imag(u)*imag(u))
 			}
 		}
 		op.apply(sys, x, k, func(y int64, amp complex128) {
-			ry := sp.vecsC[bs.index(y)*n : (bs.index(y)+1)*n]
+			iy := bs.index(y)
+			ry := sp.vecsC[iy*nv : (iy+1)*nv]
 			for j, u := range row {
 				v := amp * u
 				out[j] += real(ry[j])*real(v) + imag(ry[j])*imag(v)

@@ -107,13 +107,7 @@ func TestLowest(t *testing.T) {
 		ctx := context.Background()
 		var ws Workspace
 		for _, n := range []int{1, 2, 10, 57, 200} {
-			a0, c0 := randSym(n, 500+uint64(n)), randHerm(n, 500+uint64(n))
-			var es mat.EigenSym
-			if !es.Factorize(mat.NewSymDense(n, slices.Clone(a0)), false) {
-				t.Fatal("gonum failed")
-			}
-			ref := es.Values(nil)
-			cref := embeddingValues(t, c0, n)
+			a0, c0, ref, cref := referencePair(t, n, 500+uint64(n))
 			for _, k := range []int{1, 3, n / 2, n - 1, n, n + 5} {
 				if k < 1 {
 					continue
@@ -153,6 +147,20 @@ func TestLowest(t *testing.T) {
 			}
 		}
 	})
+}
+
+// referencePair returns the seeded random real symmetric a0 and complex
+// Hermitian c0 of order n with their reference eigenvalues: gonum's
+// mat.EigenSym (Dsyev) for a0, the real 2n x 2n embedding for c0
+// (embeddingValues).
+func referencePair(t *testing.T, n int, seed uint64) (a0 []float64, c0 []complex128, ref, cref []float64) {
+	t.Helper()
+	a0, c0 = randSym(n, seed), randHerm(n, seed)
+	var es mat.EigenSym
+	if !es.Factorize(mat.NewSymDense(n, slices.Clone(a0)), false) {
+		t.Fatal("gonum failed")
+	}
+	return a0, c0, es.Values(nil), embeddingValues(t, c0, n)
 }
 
 // solveAs solves the Hermitian ac (real when isReal: then its real part, by

@@ -276,20 +276,7 @@ func TestSterfAgainstDsterf(t *testing.T) {
 	r := rand.New(rand.NewPCG(8, 8))
 	for _, n := range []int{1, 2, 3, 10, 100, 400} {
 		for trial := 0; trial < 3; trial++ {
-			d0 := make([]float64, n)
-			e0 := make([]float64, max(n-1, 0))
-			for i := range d0 {
-				d0[i] = r.NormFloat64()
-				if trial == 2 {
-					d0[i] *= math.Pow(10, float64(i%20)-10)
-				}
-			}
-			for i := range e0 {
-				e0[i] = r.NormFloat64()
-				if trial == 1 && i%5 == 2 {
-					e0[i] = 0
-				}
-			}
+			d0, e0 := randTridiag(r, n, trial, 20, 5, 2)
 			d, e := slices.Clone(d0), slices.Clone(e0)
 			if err := sterf(d, e, nil); err != nil {
 				t.Fatalf("n=%d: %v", n, err)

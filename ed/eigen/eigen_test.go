@@ -44,6 +44,28 @@ func randHerm(n int, seed uint64) []complex128 {
 	return a
 }
 
+// randTridiag draws a random symmetric tridiagonal (d, e) of order n from r,
+// the diagonal first: standard normal entries; for trial 1 the
+// off-diagonal entries i with i%splitMod == splitAt are zero (T splits); for
+// trial 2 the diagonal is graded, d_i times 10^(i%grade - grade/2).
+func randTridiag(r *rand.Rand, n, trial, grade, splitMod, splitAt int) (d, e []float64) {
+	d = make([]float64, n)
+	e = make([]float64, max(n-1, 0))
+	for i := range d {
+		d[i] = r.NormFloat64()
+		if trial == 2 {
+			d[i] *= math.Pow(10, float64(i%grade-grade/2))
+		}
+	}
+	for i := range e {
+		e[i] = r.NormFloat64()
+		if trial == 1 && i%splitMod == splitAt {
+			e[i] = 0
+		}
+	}
+	return d, e
+}
+
 // lowerOnly returns a copy of a with the strict upper triangle poisoned
 // (NaN), so a solver that reads it fails the checks.
 func lowerOnly(a []float64, n int) []float64 {

@@ -538,31 +538,15 @@ func symmetricSubset(a []float64, n int, d, e, tau []float64, job Job, k int, si
 	if m == 0 {
 		return values, []float64{}, nil
 	}
-	plan, err := newSteinPlan(d, e, w, m, s)
-	if err != nil {
-		return nil, nil, err
-	}
-	if useStein(n, plan) {
-		z := ws.floats(n * m)
-		if err := plan.run(d, e, z, s); err == nil {
-			if vecs, err = backTransformReal(a, n, tau, z, m, 1, n, s); err != nil {
-				return nil, nil, err
-			}
-			return values, vecs, nil
-		} else if !steinFallback(err) {
-			return nil, nil, err
-		}
-	}
+	z, err := steinVectors(d, e, w, n, m, ws, s)
 	switch {
+	case err != nil:
+	case z != nil:
+		vecs, err = backTransformReal(a, n, tau, z, m, 1, n, s)
 	case 3*m <= 2*n:
-		z, err := identityInto(ws.floats(n*n), n, s)
-		if err == nil {
-			err = tridiagQL(d, e, z, n, n, s)
+		if z, err = qlFromIdentity(d, e, n, ws, s); err == nil {
+			vecs, err = backTransformReal(a, n, tau, z, m, n, 1, s)
 		}
-		if err != nil {
-			return nil, nil, err
-		}
-		vecs, err = backTransformReal(a, n, tau, z, m, n, 1, s)
 	default:
 		vecs, err = formQ(a, n, tau, s)
 		if err == nil {
@@ -594,37 +578,50 @@ func hermitianSubset(a []complex128, n int, d, e []float64, tau []complex128, jo
 	if m == 0 {
 		return values, []complex128{}, nil
 	}
-	plan, err := newSteinPlan(d, e, w, m, s)
-	if err != nil {
-		return nil, nil, err
-	}
-	stein := useStein(n, plan)
-	if stein {
-		z := ws.floats(n * m)
-		if err := plan.run(d, e, z, s); err == nil {
-			vecs, err = backTransformCols(a, n, tau, z, m, 1, n, s)
-			if err != nil {
-				return nil, nil, err
-			}
-			return values, vecs, nil
-		} else if !steinFallback(err) {
-			return nil, nil, err
+	z, err := steinVectors(d, e, w, n, m, ws, s)
+	switch {
+	case err != nil:
+	case z != nil:
+		vecs, err = backTransformCols(a, n, tau, z, m, 1, n, s)
+	default:
+		if z, err = qlFromIdentity(d, e, n, ws, s); err == nil {
+			vecs, err = backTransformCols(a, n, tau, z, m, n, 1, s)
 		}
-	}
-	{
-		z, err := identityInto(ws.floats(n*n), n, s)
-		if err == nil {
-			err = tridiagQL(d, e, z, n, n, s)
-		}
-		if err != nil {
-			return nil, nil, err
-		}
-		vecs, err = backTransformCols(a, n, tau, z, m, n, 1, s)
 	}
 	if err != nil {
 		return nil, nil, err
 	}
 	return values, vecs, nil
+}
+
+// steinVectors returns the eigenvectors of the lowest m eigenvalues w of the
+// tridiagonal (d, e) by inverse iteration, column-major n x m in ws, when
+// its plan is cheap (useStein); nil, for the caller's QL route, when it is
+// not or when inverse iteration failed (steinFallback).
+func steinVectors(d, e, w []float64, n, m int, ws *Workspace, s *stopper) ([]float64, error) {
+	plan, err := newSteinPlan(d, e, w, m, s)
+	if err != nil || !useStein(n, plan) {
+		return nil, err
+	}
+	z := ws.floats(n * m)
+	if err := plan.run(d, e, z, s); err != nil {
+		if steinFallback(err) {
+			return nil, nil
+		}
+		return nil, err
+	}
+	return z, nil
+}
+
+// qlFromIdentity returns every eigenvector of the tridiagonal (d, e) by the
+// QL iteration from Z = I, row-major n x n in ws (about 6n^3 flops); d and e
+// are destroyed.
+func qlFromIdentity(d, e []float64, n int, ws *Workspace, s *stopper) ([]float64, error) {
+	z, err := identityInto(ws.floats(n*n), n, s)
+	if err != nil {
+		return nil, err
+	}
+	return z, tridiagQL(d, e, z, n, n, s)
 }
 
 // identityInto sets the row-major n x n z to I and returns it, polling s

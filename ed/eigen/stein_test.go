@@ -501,20 +501,7 @@ func TestSteinAgainstQL(t *testing.T) {
 	r := rand.New(rand.NewPCG(19, 19))
 	for _, n := range []int{1, 2, 3, 10, 100, 300} {
 		for trial := 0; trial < 3; trial++ {
-			d := make([]float64, n)
-			e := make([]float64, max(n-1, 0))
-			for i := range d {
-				d[i] = r.NormFloat64()
-				if trial == 2 {
-					d[i] *= math.Pow(10, float64(i%8)-4)
-				}
-			}
-			for i := range e {
-				e[i] = r.NormFloat64()
-				if trial == 1 && i%7 == 3 {
-					e[i] = 0
-				}
-			}
+			d, e := randTridiag(r, n, trial, 8, 7, 3)
 			name := fmt.Sprintf("n=%d trial %d", n, trial)
 			m := max(1, n/2)
 			w := checkStein(t, name, d, e, m)

@@ -5,8 +5,6 @@ import (
 	"fmt"
 	"slices"
 	"testing"
-
-	"gonum.org/v1/gonum/mat"
 )
 
 // TestVectorsFor checks Job.VectorsFor on every backend of the build.
@@ -27,13 +25,7 @@ func testVectorsFor(t *testing.T, be Backend) {
 	ctx := context.Background()
 	var ws Workspace
 	for _, n := range []int{1, 2, 10, 57, 300} {
-		a0, c0 := randSym(n, 900+uint64(n)), randHerm(n, 900+uint64(n))
-		var es mat.EigenSym
-		if !es.Factorize(mat.NewSymDense(n, slices.Clone(a0)), false) {
-			t.Fatal("gonum failed")
-		}
-		ref := es.Values(nil)
-		cref := embeddingValues(t, c0, n)
+		a0, c0, ref, cref := referencePair(t, n, 900+uint64(n))
 		for _, lowest := range []int{0, max(1, n/3)} {
 			k := n
 			if lowest > 0 {
